@@ -1,0 +1,114 @@
+# tidelock - `make help` lists the targets.
+.DEFAULT_GOAL := all
+SHELL := /bin/bash
+
+CC ?= cc
+BUILD := build
+
+# Flight code: C11, freestanding, warnings are errors.
+FW_CFLAGS := -std=c11 -O2 -g -ffreestanding -Wall -Wextra -Wconversion -Wshadow -Wpedantic \
+             -Wdouble-promotion -Wfloat-equal -Wcast-align -Wstrict-prototypes -Werror
+# Host code: hosted C11 with POSIX; -ffp-contract=off keeps the float reference
+# bit-reproducible (no fused multiply-adds chosen by the compiler).
+HOST_CFLAGS := -std=c11 -O2 -g -D_DEFAULT_SOURCE -Wall -Wextra -Wshadow -Werror -ffp-contract=off
+INCLUDES := -Ifirmware -Ihost
+HOST_LIBS := -lfftw3 -ljansson -lm
+TEST_LIBS := -lcmocka
+
+FW_SRC := $(sort $(wildcard firmware/*.c))
+HOST_LIB_SRC := $(filter-out host/tidelock_main.c host/tablegen_main.c,$(sort $(wildcard host/*.c)))
+TEST_SRC := $(sort $(wildcard tests/test_*.c))
+TEST_SUPPORT_SRC := $(filter-out $(TEST_SRC),$(sort $(wildcard tests/*.c)))
+TESTS := $(patsubst tests/%.c,%,$(TEST_SRC))
+
+# $(call objs,VARIANT,SOURCES)
+objs = $(patsubst %.c,$(BUILD)/$(1)/%.o,$(2))
+
+# ---- variants -------------------------------------------------------------
+# rel: normal build; san: AddressSanitizer + UndefinedBehaviorSanitizer;
+# deg: firmware with a 16-bit FFT data word (must fail the fidelity tests).
+SAN_FLAGS := -fsanitize=address,undefined -fno-sanitize-recover=all -fno-omit-frame-pointer
+rel_FW := $(FW_CFLAGS)
+rel_HOST := $(HOST_CFLAGS)
+rel_LD :=
+san_FW := $(FW_CFLAGS) $(SAN_FLAGS) -O1
+san_HOST := $(HOST_CFLAGS) $(SAN_FLAGS) -O1
+san_LD := $(SAN_FLAGS)
+deg_FW := $(FW_CFLAGS) -DTL_FFT_DATA_BITS=16
+deg_HOST := $(HOST_CFLAGS)
+deg_LD :=
+
+define variant
+$(BUILD)/$(1)/firmware/%.o: firmware/%.c $(wildcard firmware/*.h) | $(BUILD)/$(1)/firmware
+	$$(CC) $$($(1)_FW) $$(INCLUDES) -c $$< -o $$@
+$(BUILD)/$(1)/host/%.o: host/%.c $(wildcard firmware/*.h host/*.h) | $(BUILD)/$(1)/host
+	$$(CC) $$($(1)_HOST) $$(INCLUDES) -c $$< -o $$@
+$(BUILD)/$(1)/tests/%.o: tests/%.c $(wildcard firmware/*.h host/*.h tests/*.h) | $(BUILD)/$(1)/tests
+	$$(CC) $$($(1)_HOST) $$(INCLUDES) -Itests -c $$< -o $$@
+$(BUILD)/$(1)/firmware $(BUILD)/$(1)/host $(BUILD)/$(1)/tests:
+	mkdir -p $$@
+$(BUILD)/$(1)/libtl.a: $(call objs,$(1),$(FW_SRC) $(HOST_LIB_SRC))
+	rm -f $$@ && ar rcs $$@ $$^
+$(BUILD)/$(1)/tidelock: $(BUILD)/$(1)/host/tidelock_main.o $(BUILD)/$(1)/libtl.a
+	$$(CC) $$($(1)_LD) $$^ $(HOST_LIBS) -o $$@
+$(BUILD)/$(1)/test_%: $(BUILD)/$(1)/tests/test_%.o $(call objs,$(1),$(TEST_SUPPORT_SRC)) $(BUILD)/$(1)/libtl.a
+	$$(CC) $$($(1)_LD) $$^ $(TEST_LIBS) $(HOST_LIBS) -o $$@
+endef
+$(eval $(call variant,rel))
+$(eval $(call variant,san))
+$(eval $(call variant,deg))
+
+# ---- firmware purity: no floating point, libm, malloc or stdio -------------
+# Compiled once more with -mgeneral-regs-only (x86-64: any float becomes a
+# soft-float call), then every undefined symbol must be on the allowlist of
+# freestanding support routines.
+FW_ALLOWED_UNDEF := memcpy memset memmove memcmp
+$(BUILD)/purity/%.o: firmware/%.c $(wildcard firmware/*.h) | $(BUILD)/purity
+	$(CC) $(FW_CFLAGS) $(if $(filter x86_64,$(shell uname -m)),-mgeneral-regs-only) -Ifirmware -c $< -o $@
+$(BUILD)/purity:
+	mkdir -p $@
+$(BUILD)/purity/ok: $(patsubst firmware/%.c,$(BUILD)/purity/%.o,$(FW_SRC))
+	@bad=$$(nm -u --format=posix $^ | awk '{print $$1}' | sort -u | grep -vxE '$(subst $(space),|,$(FW_ALLOWED_UNDEF))|[^ ]*:' || true); \
+	if [ -n "$$bad" ]; then echo "firmware purity check FAILED: firmware objects reference: $$bad"; exit 1; fi; \
+	echo "firmware purity: no floating point, libm, malloc or stdio in $(words $^) objects"; touch $@
+space := $(subst ,, )
+
+# ---- tables ---------------------------------------------------------------
+$(BUILD)/tl-tablegen: host/tablegen_main.c host/tables_gen.c host/taps_design.c firmware/tl_taps.c firmware/tl_crc32c.c
+	mkdir -p $(BUILD)
+	$(CC) $(HOST_CFLAGS) $(INCLUDES) $^ -lm -o $@
+
+# ---- user targets ---------------------------------------------------------
+.PHONY: all run test test-rel test-san test-deg purity tables deps help clean bench
+all: $(BUILD)/rel/tidelock $(BUILD)/purity/ok ## build the CLI and check firmware purity
+	ln -sf rel/tidelock $(BUILD)/tidelock
+
+deps: ## install missing Debian packages (uses sudo when not root)
+	bash .ci/deps.sh
+
+run: deps all ## install packages, build, run the default scenario into out/
+	$(BUILD)/tidelock run -o out
+
+test: all test-rel test-deg test-san ## every test, then again under ASan+UBSan
+	@echo "make test: all suites passed"
+
+test-rel: $(addprefix $(BUILD)/rel/,$(TESTS)) $(BUILD)/purity/ok
+	@bash tests/run_suite.sh $(BUILD)/rel $(TESTS)
+
+test-san: $(addprefix $(BUILD)/san/,$(TESTS))
+	@ASAN_OPTIONS=detect_leaks=1 UBSAN_OPTIONS=print_stacktrace=1 bash tests/run_suite.sh $(BUILD)/san $(TESTS)
+
+test-deg: $(BUILD)/deg/test_degraded
+	@bash tests/run_suite.sh $(BUILD)/deg test_degraded
+
+tables: $(BUILD)/tl-tablegen ## regenerate the committed firmware tables
+	$(BUILD)/tl-tablegen twiddle firmware/tl_twiddle_table.c
+	$(BUILD)/tl-tablegen taps firmware/tl_taps_default.c
+
+purity: $(BUILD)/purity/ok ## check firmware objects for float/libm/malloc/stdio
+
+clean: ## remove build products
+	rm -rf $(BUILD)
+
+help: ## list targets
+	@grep -E '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | sed -E 's/:.*## /\t/' | expand -t 10

@@ -1,0 +1,242 @@
+/* tl_chain.c - the spectrometer chain (see tl_chain.h). */
+#include "tl_chain.h"
+
+void tl_config_default(tl_config *cfg)
+{
+    cfg->points = 8192u;
+    cfg->taps = 4u;
+    cfg->inputs = 2u;
+    cfg->adc_bits = 14u;
+    cfg->integration = 1u << 20;
+    cfg->fft_scale_mask = TL_FFT_SCALE_AUTO;
+    cfg->rounding = (uint32_t)TL_ROUND_HALF_EVEN;
+    cfg->det_shift = TL_DET_SHIFT_AUTO;
+}
+
+uint32_t tl_config_det_shift(const tl_config *cfg)
+{
+    if (cfg->det_shift != TL_DET_SHIFT_AUTO)
+        return cfg->det_shift;
+    uint32_t s = 0;
+    while (s < 32u && ((uint64_t)1 << s) < cfg->integration)
+        s++;
+    return s;
+}
+
+static tl_status check_config(const tl_config *cfg)
+{
+    if (cfg->points < TL_MIN_POINTS || cfg->points > TL_MAX_POINTS || (cfg->points & (cfg->points - 1u)) != 0u)
+        return TL_E_POINTS;
+    if (cfg->taps < 1u || cfg->taps > TL_MAX_TAPS)
+        return TL_E_TAPS;
+    if (cfg->inputs < 1u || cfg->inputs > TL_MAX_INPUTS)
+        return TL_E_INPUTS;
+    if (cfg->adc_bits < TL_MIN_ADC_BITS || cfg->adc_bits > TL_MAX_ADC_BITS)
+        return TL_E_ADC_BITS;
+    if (cfg->integration < 1u || cfg->integration > TL_MAX_INTEGRATION)
+        return TL_E_INTEGRATION;
+    if (cfg->rounding > (uint32_t)TL_ROUND_HALF_EVEN)
+        return TL_E_ROUNDING;
+    if (cfg->det_shift != TL_DET_SHIFT_AUTO && cfg->det_shift > TL_MAX_DET_SHIFT)
+        return TL_E_DET_SHIFT;
+    return TL_OK;
+}
+
+static void start_integration(tl_chain *c)
+{
+    tl_integrate_reset(&c->integ, c->cfg.points / 2u);
+    c->stats = (tl_stats){ { 0 }, { 0 }, { { 0 } }, { 0 } };
+    c->first_frame = 0;
+    c->ready = 0;
+}
+
+/* Start pipeline and integration with the table now in c->taps. */
+static tl_status start(tl_chain *c)
+{
+    for (uint32_t i = 0; i < c->cfg.inputs; i++) {
+        const tl_status st = tl_pfb_init(&c->pfb[i], &c->taps, (tl_rounding)c->cfg.rounding);
+        if (st != TL_OK)
+            return st;
+    }
+    c->fill = 0;
+    start_integration(c);
+    return TL_OK;
+}
+
+tl_status tl_chain_init(tl_chain *c, const tl_config *cfg, const uint8_t *taps_image, size_t image_len)
+{
+    if (c == NULL || cfg == NULL)
+        return TL_E_NULL;
+    c->initialised = 0;
+    tl_status st = check_config(cfg);
+    if (st != TL_OK)
+        return st;
+    st = tl_fft_init(&c->fft, cfg->points, cfg->fft_scale_mask, (tl_rounding)cfg->rounding);
+    if (st != TL_OK)
+        return st;
+    st = (taps_image == NULL) ? tl_taps_default(&c->taps) : tl_taps_load_image(&c->taps, taps_image, image_len);
+    if (st != TL_OK)
+        return st;
+    if (c->taps.points != cfg->points || c->taps.taps != cfg->taps)
+        return TL_E_TABLE_MISMATCH;
+    c->cfg = *cfg;
+    c->cfg.fft_scale_mask = c->fft.scale_mask;
+    c->cfg.det_shift = tl_config_det_shift(cfg);
+    c->clip_hi = (uint16_t)(((1u << (cfg->adc_bits - 1u)) - 1u) << (16u - cfg->adc_bits));
+    c->index = 0;
+    c->frames = 0;
+    st = start(c);
+    if (st != TL_OK)
+        return st;
+    c->initialised = TL_CHAIN_MAGIC;
+    return TL_OK;
+}
+
+tl_status tl_chain_load_taps(tl_chain *c, const uint8_t *taps_image, size_t image_len)
+{
+    if (c == NULL || taps_image == NULL)
+        return TL_E_NULL;
+    if (c->initialised != TL_CHAIN_MAGIC)
+        return TL_E_NOT_INIT;
+    uint32_t points = 0, taps = 0;
+    tl_status st = tl_taps_check_image(taps_image, image_len, &points, &taps);
+    if (st != TL_OK)
+        return st;
+    if (taps != c->cfg.taps || points != c->cfg.points)
+        return TL_E_TABLE_MISMATCH;
+    st = tl_taps_load_image(&c->taps, taps_image, image_len);
+    if (st != TL_OK)
+        return st;
+    return start(c);
+}
+
+tl_status tl_chain_reset(tl_chain *c)
+{
+    if (c == NULL)
+        return TL_E_NULL;
+    if (c->initialised != TL_CHAIN_MAGIC)
+        return TL_E_NOT_INIT;
+    return start(c);
+}
+
+int tl_chain_ready(const tl_chain *c)
+{
+    return c != NULL && c->initialised == TL_CHAIN_MAGIC && c->ready != 0u;
+}
+
+/* Copy n samples of one input into the frame slot, counting ADC clips. */
+static void copy_in(tl_chain *c, uint32_t input, const int16_t *src, uint32_t n)
+{
+    int16_t *dst = tl_pfb_next_frame(&c->pfb[input]) + c->fill;
+    const int16_t hi = (int16_t)c->clip_hi;
+    uint32_t clips = 0;
+    for (uint32_t i = 0; i < n; i++) {
+        const int16_t v = src[i];
+        clips += (uint32_t)(v >= hi) + (uint32_t)(v == INT16_MIN);
+        dst[i] = v;
+    }
+    tl_count_add(&c->stats.adc_clips[input], clips);
+}
+
+/* A frame is complete on every input: filter, transform, detect, integrate. */
+static void process_frame(tl_chain *c)
+{
+    const uint32_t channels = c->cfg.points / 2u;
+    const unsigned shift = (unsigned)c->cfg.det_shift;
+    const tl_rounding mode = (tl_rounding)c->cfg.rounding;
+    int have = 1;
+    for (uint32_t i = 0; i < c->cfg.inputs; i++) {
+        if (!tl_pfb_commit(&c->pfb[i], c->y, &c->stats.pfb_sat[i])) {
+            have = 0;
+            continue;
+        }
+        tl_fft_execute(&c->fft, c->y, c->X[i], c->stats.fft_sat[i]);
+    }
+    c->frames++;
+    if (!have)
+        return;
+    if (c->integ.spectra == 0u)
+        c->first_frame = c->frames - 1u;
+    for (uint32_t i = 0; i < c->cfg.inputs; i++) {
+        tl_detect_power(c->X[i], channels, shift, mode, c->power);
+        tl_integrate_power(&c->integ, i, c->power);
+    }
+    if (c->cfg.inputs == 2u) {
+        tl_detect_cross(c->X[0], c->X[1], channels, shift, mode, c->cross_re, c->cross_im);
+        tl_integrate_cross(&c->integ, c->cross_re, c->cross_im);
+    }
+    c->integ.spectra++;
+    if (c->integ.spectra >= c->cfg.integration)
+        c->ready = 1u;
+}
+
+tl_status tl_chain_push(tl_chain *c, const int16_t *in0, const int16_t *in1, size_t count, size_t *used)
+{
+    if (c == NULL || used == NULL)
+        return TL_E_NULL;
+    *used = 0;
+    if (c->initialised != TL_CHAIN_MAGIC)
+        return TL_E_NOT_INIT;
+    if (count > 0u && (in0 == NULL || (c->cfg.inputs == 2u && in1 == NULL)))
+        return TL_E_NULL;
+    if (c->ready)
+        return TL_E_BUSY;
+    const uint32_t N = c->cfg.points;
+    size_t done = 0;
+    while (done < count && !c->ready) {
+        const size_t room = N - c->fill;
+        const uint32_t n = (uint32_t)((count - done < room) ? (count - done) : room);
+        copy_in(c, 0u, in0 + done, n);
+        if (c->cfg.inputs == 2u)
+            copy_in(c, 1u, in1 + done, n);
+        c->fill += n;
+        done += n;
+        if (c->fill == N) {
+            c->fill = 0;
+            process_frame(c);
+        }
+    }
+    *used = done;
+    return TL_OK;
+}
+
+tl_status tl_chain_take(tl_chain *c, tl_product *out)
+{
+    if (c == NULL || out == NULL)
+        return TL_E_NULL;
+    if (c->initialised != TL_CHAIN_MAGIC)
+        return TL_E_NOT_INIT;
+    if (!c->ready)
+        return TL_E_EMPTY;
+    const uint32_t channels = c->cfg.points / 2u;
+    out->arith_version = TL_ARITH_VERSION;
+    out->index = c->index;
+    out->spectra = c->integ.spectra;
+    out->first_frame = c->first_frame;
+    out->points = c->cfg.points;
+    out->taps = c->cfg.taps;
+    out->inputs = c->cfg.inputs;
+    out->channels = channels;
+    out->fft_stages = c->fft.stages;
+    out->fft_scale_mask = c->fft.scale_mask;
+    out->fft_total_shift = c->fft.total_shift;
+    out->det_shift = c->cfg.det_shift;
+    out->rounding = c->cfg.rounding;
+    out->window = c->taps.window;
+    out->taps_shift = c->taps.shift;
+    out->taps_crc = c->taps.crc;
+    out->stats = c->stats;
+    for (uint32_t i = 0; i < 4u; i++)
+        out->stats.acc_sat[i] = c->integ.sat_channels[i];
+    for (uint32_t k = 0; k < TL_MAX_CHANNELS; k++) {
+        const int in = k < channels;
+        for (uint32_t i = 0; i < TL_MAX_INPUTS; i++)
+            out->auto_power[i][k] = (in && i < c->cfg.inputs) ? c->integ.auto_sum[i][k] : 0u;
+        out->cross_re[k] = (in && c->cfg.inputs == 2u) ? c->integ.cross_re[k] : 0;
+        out->cross_im[k] = (in && c->cfg.inputs == 2u) ? c->integ.cross_im[k] : 0;
+        out->flags[k] = in ? c->integ.flags[k] : 0u;
+    }
+    c->index++;
+    start_integration(c);
+    return TL_OK;
+}

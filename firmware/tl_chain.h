@@ -1,0 +1,142 @@
+/*
+ * tl_chain.h - the spectrometer chain: ADC samples in, integrated spectra out.
+ *
+ *   int16 Q15 samples --> tl_pfb (Q30) --> tl_fft (int32) --> tl_detect
+ *   (64-bit, rounded shift) --> tl_integrate (64-bit sums) --> tl_product
+ *
+ * Use:
+ *     static tl_chain chain;             // caller owns it (about 1.9 MB at host maxima)
+ *     tl_config cfg; tl_config_default(&cfg); cfg.integration = 4096;
+ *     st = tl_chain_init(&chain, &cfg, NULL, 0);   // NULL: built-in table
+ *     while (samples left) {
+ *         st = tl_chain_push(&chain, in0, in1, n, &used);
+ *         in0 += used; in1 += used; n -= used;
+ *         if (tl_chain_ready(&chain)) tl_chain_take(&chain, &product);
+ *     }
+ *
+ * Push takes any number of samples; a stream cut into any pieces gives the
+ * same products byte for byte. Push stops right after the spectrum that
+ * completes an integration; until that product is taken, push consumes
+ * nothing and returns TL_E_BUSY. No hidden globals: all state is in the
+ * context; nothing is allocated.
+ */
+#ifndef TL_CHAIN_H
+#define TL_CHAIN_H
+
+#include <stddef.h>
+#include <stdint.h>
+#include "tl_detect.h"
+#include "tl_fft.h"
+#include "tl_fixed.h"
+#include "tl_integrate.h"
+#include "tl_limits.h"
+#include "tl_pfb.h"
+#include "tl_status.h"
+#include "tl_taps.h"
+
+#define TL_DET_SHIFT_AUTO 0xFFFFFFFFu /* ceil(log2(integration)): no sum can overflow */
+
+/* Configuration: plain values, checked whole by tl_chain_init. */
+typedef struct tl_config {
+    uint32_t points;          /* real FFT size N: power of two, 256 .. TL_MAX_POINTS; channels = N/2 */
+    uint32_t taps;            /* polyphase taps P: 1 .. TL_MAX_TAPS (1 = windowed FFT) */
+    uint32_t inputs;          /* antenna inputs: 1 or 2 (2 adds the cross-power) */
+    uint32_t adc_bits;        /* ADC resolution 8 .. 16; codes arrive left-aligned in int16 */
+    uint32_t integration;     /* spectra per integration M: 1 .. 2^24 */
+    uint32_t fft_scale_mask;  /* see tl_fft.h; TL_FFT_SCALE_AUTO for the default */
+    uint32_t rounding;        /* tl_rounding for every rounding point */
+    uint32_t det_shift;       /* 0 .. TL_MAX_DET_SHIFT, or TL_DET_SHIFT_AUTO */
+} tl_config;
+
+/* Counters of one integration. Counts saturate at UINT32_MAX. */
+typedef struct tl_stats {
+    uint32_t adc_clips[TL_MAX_INPUTS];   /* samples at the ADC's most negative or most positive code */
+    uint32_t pfb_sat[TL_MAX_INPUTS];     /* filterbank outputs saturated */
+    uint32_t fft_sat[TL_MAX_INPUTS][TL_MAX_FFT_STAGES + 1u]; /* per stage; split at [fft_stages] */
+    uint32_t acc_sat[4];                 /* channels whose sum saturated: auto0, auto1, cross re, cross im */
+} tl_stats;
+
+/* A finished integration. The caller owns it (about 270 kB at host maxima). */
+typedef struct tl_product {
+    uint32_t arith_version;   /* TL_ARITH_VERSION */
+    uint32_t index;           /* integration number since init, from 0 */
+    uint32_t spectra;         /* spectra integrated (= config integration) */
+    uint64_t first_frame;     /* frame number (N samples each, from 0) of the first spectrum's newest frame */
+    uint32_t points, taps, inputs, channels;
+    uint32_t fft_stages;      /* radix stages, so fft_sat[.][fft_stages] is the split */
+    uint32_t fft_scale_mask;  /* resolved */
+    uint32_t fft_total_shift; /* sum of stage shifts: X = DFT / 2^fft_total_shift */
+    uint32_t det_shift;       /* resolved */
+    uint32_t rounding;
+    uint32_t window;          /* of the coefficient table */
+    uint32_t taps_shift;      /* h = c / 2^taps_shift */
+    uint32_t taps_crc;        /* CRC-32C of the coefficient table in use */
+    tl_stats stats;
+    uint64_t auto_power[TL_MAX_INPUTS][TL_MAX_CHANNELS]; /* sum of round(|X|^2 / 2^det_shift) */
+    int64_t cross_re[TL_MAX_CHANNELS];                   /* sum of round(Re X conj Y / 2^det_shift) */
+    int64_t cross_im[TL_MAX_CHANNELS];
+    uint8_t flags[TL_MAX_CHANNELS];                      /* TL_FLAG_* per channel */
+} tl_product;
+
+typedef struct tl_chain {
+    uint32_t initialised;     /* TL_CHAIN_MAGIC after a successful init */
+    tl_config cfg;            /* as resolved */
+    uint32_t fill;            /* samples of the current frame received */
+    uint32_t ready;           /* 1 when a finished integration waits */
+    uint32_t index;           /* integrations finished */
+    uint64_t frames;          /* frames completed since init */
+    uint64_t first_frame;     /* of the running integration */
+    tl_stats stats;           /* of the running integration */
+    uint16_t clip_hi;         /* most positive ADC code (left-aligned) */
+    tl_taps taps;
+    tl_pfb pfb[TL_MAX_INPUTS];
+    tl_fft fft;
+    tl_integrator integ;
+    int32_t y[TL_MAX_POINTS];
+    int32_t X[TL_MAX_INPUTS][TL_MAX_POINTS];
+    uint64_t power[TL_MAX_CHANNELS];
+    int64_t cross_re[TL_MAX_CHANNELS];
+    int64_t cross_im[TL_MAX_CHANNELS];
+} tl_chain;
+
+#define TL_CHAIN_MAGIC 0x544C4348u
+
+/* Defaults: 8192 points, 4 taps, 2 inputs, 14-bit ADC, 2^20 spectra per
+ * integration (about 84 s at 102.4 Msample/s), default FFT scaling,
+ * round half to even, automatic detection shift. */
+void tl_config_default(tl_config *cfg);
+
+/* Resolve TL_FFT_SCALE_AUTO and TL_DET_SHIFT_AUTO as init would. */
+uint32_t tl_config_det_shift(const tl_config *cfg);
+
+/* Check every field of cfg, then start the chain with the coefficient table
+ * image `taps_image` (or the built-in default when it is NULL). Returns
+ * TL_OK, TL_E_NULL, TL_E_POINTS, TL_E_TAPS, TL_E_INPUTS, TL_E_ADC_BITS,
+ * TL_E_INTEGRATION, TL_E_SCALING, TL_E_ROUNDING, TL_E_DET_SHIFT, any error of
+ * tl_taps_load_image, or TL_E_TABLE_MISMATCH (table taps/points differ from
+ * cfg). On error the context is left marked uninitialised. */
+tl_status tl_chain_init(tl_chain *c, const tl_config *cfg, const uint8_t *taps_image, size_t image_len);
+
+/* Replace the coefficient table while running. The image is checked whole;
+ * on error nothing changes. On success the filterbank history and the
+ * running integration restart. Returns as tl_taps_load_image, plus
+ * TL_E_NOT_INIT and TL_E_TABLE_MISMATCH. */
+tl_status tl_chain_load_taps(tl_chain *c, const uint8_t *taps_image, size_t image_len);
+
+/* Restart: empty history, zero the running integration (counters since init kept). */
+tl_status tl_chain_reset(tl_chain *c);
+
+/* Feed `count` samples per input (in1 must be NULL for 1 input and non-NULL
+ * for 2). *used receives how many were consumed. Returns TL_OK (check
+ * tl_chain_ready), TL_E_BUSY (a product waits; nothing consumed), TL_E_NULL,
+ * TL_E_NOT_INIT. */
+tl_status tl_chain_push(tl_chain *c, const int16_t *in0, const int16_t *in1, size_t count, size_t *used);
+
+/* 1 when a finished integration waits to be taken. */
+int tl_chain_ready(const tl_chain *c);
+
+/* Copy the finished integration to *out and start the next one.
+ * Returns TL_OK, TL_E_NULL, TL_E_NOT_INIT, TL_E_EMPTY. */
+tl_status tl_chain_take(tl_chain *c, tl_product *out);
+
+#endif

@@ -1,0 +1,39 @@
+/*
+ * tl_status.h - the one status enum shared by the firmware and the host.
+ *
+ * Every tidelock function that can fail returns a tl_status. TL_OK is zero,
+ * every error is a distinct positive value, so `if (st != TL_OK)` is the only
+ * test a caller needs. Values are part of the link protocol later on: never
+ * renumber, only append.
+ */
+#ifndef TL_STATUS_H
+#define TL_STATUS_H
+
+typedef enum tl_status {
+    TL_OK = 0,            /* success */
+    TL_E_NULL = 1,        /* a required pointer argument was NULL */
+    TL_E_POINTS = 2,      /* transform size not a power of two in [TL_MIN_POINTS, TL_MAX_POINTS] */
+    TL_E_TAPS = 3,        /* taps per channel outside [1, TL_MAX_TAPS] */
+    TL_E_INPUTS = 4,      /* number of inputs outside [1, TL_MAX_INPUTS] */
+    TL_E_ADC_BITS = 5,    /* ADC bits outside [TL_MIN_ADC_BITS, 16] */
+    TL_E_INTEGRATION = 6, /* spectra per integration outside [1, TL_MAX_INTEGRATION] */
+    TL_E_SCALING = 7,     /* FFT scaling mask has bits above the last stage */
+    TL_E_ROUNDING = 8,    /* rounding mode is not one of tl_rounding */
+    TL_E_DET_SHIFT = 9,   /* detection shift outside [0, TL_MAX_DET_SHIFT] and not TL_DET_SHIFT_AUTO */
+    TL_E_TABLE_SIZE = 10, /* coefficient table image length does not match its header */
+    TL_E_TABLE_FORMAT = 11, /* coefficient table image: bad magic, version, bits or shift */
+    TL_E_TABLE_CRC = 12,  /* coefficient table image: CRC-32C mismatch */
+    TL_E_TABLE_RANGE = 13, /* coefficient table image: a coefficient outside 18-bit range */
+    TL_E_TABLE_MISMATCH = 14, /* coefficient table taps/points differ from the configuration */
+    TL_E_BUSY = 15,       /* a finished integration is waiting: take it before pushing more */
+    TL_E_EMPTY = 16,      /* no finished integration to take */
+    TL_E_NOT_INIT = 17    /* context used before a successful init */
+} tl_status;
+
+/* Short constant name of a status ("TL_E_POINTS"); never NULL. */
+const char *tl_status_name(tl_status st);
+
+/* One-line English description of a status, without trailing newline; never NULL. */
+const char *tl_status_text(tl_status st);
+
+#endif

@@ -1,0 +1,153 @@
+/* report.c - text and JSON summaries of a run (see report.h). */
+#include "report.h"
+
+#include <errno.h>
+#include <jansson.h>
+#include <math.h>
+#include <string.h>
+#include <unistd.h>
+#include "taps_design.h"
+
+static const char *rounding_name(uint32_t r)
+{
+    return r == TL_ROUND_TRUNCATE ? "truncate" : r == TL_ROUND_HALF_UP ? "half-up" : "half-even";
+}
+
+static double hours_of(const tl_scenario *s, double spectra)
+{
+    return spectra * s->cfg.points / s->sky.sample_rate_hz / 3600.0;
+}
+
+void tl_report_print(FILE *out, const tl_scenario *s, const tl_run_result *r)
+{
+    const tl_fid_result *f = &r->fid;
+    const tl_config *c = &s->cfg;
+    const double df = tl_scenario_channel_hz(s);
+    fprintf(out, "tidelock run: scenario %s\n  %s\n", s->name, s->description);
+    fprintf(out, "configuration: %u points (%u channels of %.3f kHz), %u taps %s, %u input%s, %u-bit ADC,\n"
+                 "  FFT scaling mask 0x%04x, rounding %s, detection shift %u (flight %u for %u spectra), arithmetic spec v%u\n",
+            c->points, c->points / 2u, df / 1e3, c->taps, tl_window_name(s->window), c->inputs, c->inputs > 1 ? "s" : "",
+            c->adc_bits, c->fft_scale_mask == TL_FFT_SCALE_AUTO ? tl_fft_default_mask(c->points) : c->fft_scale_mask,
+            rounding_name(c->rounding), f->det_shift, f->flight_det_shift, f->flight_spectra, (unsigned)TL_ARITH_VERSION);
+    fprintf(out, "run: %u spectra in %u blocks, science band %.3f-%.3f MHz (channels %u-%u), drive %+.1f dB "
+                 "(RMS %.4f of full scale), %.1f s\n",
+            f->spectra, f->blocks, f->band_lo * df / 1e6, f->band_hi * df / 1e6, f->band_lo, f->band_hi - 1u,
+            s->drive_db, s->sky.rms_fs * pow(10.0, s->drive_db / 20.0), r->seconds);
+    fprintf(out, "counters (all integrations):\n");
+    for (uint32_t i = 0; i < c->inputs; i++) {
+        fprintf(out, "  input %u: ADC clips %u (generator %llu), PFB saturations %u, FFT saturations per stage [", i,
+                f->stats.adc_clips[i], (unsigned long long)r->generator_clips[i], f->stats.pfb_sat[i]);
+        for (unsigned st = 0; st <= TL_MAX_FFT_STAGES; st++)
+            fprintf(out, "%s%u", st ? " " : "", f->stats.fft_sat[i][st]);
+        fprintf(out, "] (last entry used: split)\n");
+    }
+    fprintf(out, "  accumulator saturations: auto0 %u, auto1 %u, cross re %u, cross im %u; flagged channels %u\n",
+            f->stats.acc_sat[0], f->stats.acc_sat[1], f->stats.acc_sat[2], f->stats.acc_sat[3], f->sat_flags);
+    fprintf(out, "  mean channel power |X|^2: %.4g LSB^2 (input 0); predicted round-off E|e|^2: %.4g LSB^2 "
+                 "(SQNR %.1f dB)\n",
+            f->mean_power_lsb2[0], f->noise_pred_lsb2, 10.0 * log10(f->mean_power_lsb2[0] / f->noise_pred_lsb2));
+    fprintf(out, "  predicted power gain error of the Q29 twiddles over the band: %.3e (a fixed per-channel gain, "
+                 "removed by calibration)\n", f->twiddle_gain);
+    fprintf(out, "fidelity against the FFTW double reference (d = relative error; d*sqrt(M) in radiometer-noise units):\n");
+    fprintf(out, "  %-8s %11s %10s %11s %12s %11s %13s %9s %11s\n", "product", "bias", "std.err", "predicted",
+            "scatter/spec", "margin@M", "margin@M'ext", "chi2 z", "coef q.max");
+    for (int p = 0; p < TL_FID_PRODUCTS; p++) {
+        const tl_fid_metrics *m = &f->main[p];
+        if (!m->present)
+            continue;
+        fprintf(out, "  %-8s %11.3e %10.2e %11.3e %12.3e %11.3e %13.3e %9.2f %11.3e\n", tl_fidelity_product_name(p),
+                m->bias, m->bias_se, m->bias_pred, m->scatter1, m->margin, f->margin_ext[p], m->chi2_z, m->ideal_max);
+    }
+    const tl_fid_metrics *a = &f->main[TL_FID_AUTO0];
+    fprintf(out, "  bias bound |b|+2se reaches 0.01 of the noise after %.3g spectra (%.3g hours of co-adding)\n",
+            a->m_reach, hours_of(s, a->m_reach));
+    char why[4096];
+    const int fails = tl_fidelity_verdict(f, why, sizeof why);
+    if (fails == 0)
+        fprintf(out, "verdict: PASS (margin < %.2g at M and M', |bias| < %.0e, se < %.0e, chi2 |z| < %.0f, bias as predicted)\n",
+                TL_FID_MARGIN_MAX, TL_FID_BIAS_MAX, TL_FID_BIAS_SE_MAX, TL_FID_CHI2_Z_MAX);
+    else
+        fprintf(out, "verdict: FAIL (%d checks)\n%s", fails, why);
+}
+
+static json_t *metrics_json(const tl_fid_metrics *m, double margin_ext)
+{
+    return json_pack("{s:f, s:f, s:f, s:f, s:f, s:f, s:f, s:f, s:f, s:f, s:f, s:f}", "bias", m->bias, "bias_se",
+                     m->bias_se, "bias_predicted", m->bias_pred, "scatter_per_spectrum", m->scatter1, "margin",
+                     m->margin, "margin_extrapolated", margin_ext, "chi2", m->chi2, "chi2_dof", m->chi2_dof,
+                     "chi2_z", m->chi2_z, "coef_quant_bias", m->ideal_bias, "coef_quant_max", m->ideal_max,
+                     "spectra_to_reach_0.01", isfinite(m->m_reach) ? m->m_reach : -1.0);
+}
+
+static json_t *u32_array(const uint32_t *v, unsigned n)
+{
+    json_t *a = json_array();
+    for (unsigned i = 0; i < n; i++)
+        json_array_append_new(a, json_integer(v[i]));
+    return a;
+}
+
+int tl_report_write_json(const char *path, const tl_scenario *s, const tl_run_result *r, char *err, size_t cap)
+{
+    const tl_fid_result *f = &r->fid;
+    const tl_config *c = &s->cfg;
+    json_t *root = json_object();
+    json_object_set_new(root, "tool", json_string("tidelock"));
+    json_object_set_new(root, "arith_version", json_integer(TL_ARITH_VERSION));
+    json_object_set_new(root, "scenario", json_pack("{s:s, s:s, s:f, s:f, s:f, s:f}", "name", s->name, "description",
+                                                    s->description, "sample_rate_hz", s->sky.sample_rate_hz,
+                                                    "drive_db", s->drive_db, "band_lo_hz", s->band_lo_hz,
+                                                    "band_hi_hz", s->band_hi_hz));
+    json_object_set_new(root, "config",
+                        json_pack("{s:i, s:i, s:i, s:i, s:s, s:i, s:s, s:i, s:i, s:i}", "points", (json_int_t)c->points,
+                                  "channels", (json_int_t)(c->points / 2u), "taps", (json_int_t)c->taps, "inputs",
+                                  (json_int_t)c->inputs, "window", tl_window_name(s->window), "adc_bits",
+                                  (json_int_t)c->adc_bits, "rounding", rounding_name(c->rounding), "fft_scale_mask",
+                                  (json_int_t)(c->fft_scale_mask == TL_FFT_SCALE_AUTO ? tl_fft_default_mask(c->points)
+                                                                                       : c->fft_scale_mask),
+                                  "det_shift", (json_int_t)f->det_shift, "flight_det_shift",
+                                  (json_int_t)f->flight_det_shift));
+    json_object_set_new(root, "run", json_pack("{s:i, s:i, s:i, s:i, s:i, s:f}", "spectra", (json_int_t)f->spectra,
+                                               "blocks", (json_int_t)f->blocks, "flight_spectra",
+                                               (json_int_t)f->flight_spectra, "band_lo_channel",
+                                               (json_int_t)f->band_lo, "band_hi_channel", (json_int_t)f->band_hi,
+                                               "seconds", r->seconds));
+    json_t *cnt = json_object();
+    json_t *inputs = json_array();
+    for (uint32_t i = 0; i < c->inputs; i++)
+        json_array_append_new(inputs, json_pack("{s:i, s:I, s:i, s:o}", "adc_clips", (json_int_t)f->stats.adc_clips[i],
+                                                "generator_clips", (json_int_t)r->generator_clips[i], "pfb_saturations",
+                                                (json_int_t)f->stats.pfb_sat[i], "fft_saturations_per_stage",
+                                                u32_array(f->stats.fft_sat[i], TL_MAX_FFT_STAGES + 1u)));
+    json_object_set_new(cnt, "inputs", inputs);
+    json_object_set_new(cnt, "accumulator_saturations", u32_array(f->stats.acc_sat, 4));
+    json_object_set_new(cnt, "flagged_channels", json_integer(f->sat_flags));
+    json_object_set_new(root, "counters", cnt);
+    json_object_set_new(root, "noise", json_pack("{s:f, s:f, s:f}", "mean_power_lsb2", f->mean_power_lsb2[0],
+                                                 "predicted_roundoff_lsb2", f->noise_pred_lsb2,
+                                                 "predicted_twiddle_gain_error", f->twiddle_gain));
+    json_t *fid = json_object();
+    for (int p = 0; p < TL_FID_PRODUCTS; p++)
+        if (f->main[p].present)
+            json_object_set_new(fid, tl_fidelity_product_name(p), metrics_json(&f->main[p], f->margin_ext[p]));
+    json_object_set_new(root, "fidelity", fid);
+    char why[4096];
+    const int fails = tl_fidelity_verdict(f, why, sizeof why);
+    json_object_set_new(root, "verdict", json_pack("{s:s, s:i, s:s}", "result", fails ? "FAIL" : "PASS", "failures",
+                                                   fails, "reasons", why));
+    char tmp[4200];
+    int rc = -1;
+    if (snprintf(tmp, sizeof tmp, "%s.tmp.%ld", path, (long)getpid()) >= (int)sizeof tmp) {
+        snprintf(err, cap, "%s: path too long", path);
+    } else if (json_dump_file(root, tmp, JSON_INDENT(2) | JSON_REAL_PRECISION(10)) != 0) {
+        snprintf(err, cap, "%s: cannot write: %s", tmp, strerror(errno));
+        remove(tmp);
+    } else if (rename(tmp, path) != 0) {
+        snprintf(err, cap, "%s: cannot rename into place: %s", path, strerror(errno));
+        remove(tmp);
+    } else {
+        rc = 0;
+    }
+    json_decref(root);
+    return rc;
+}
