@@ -1,5 +1,6 @@
 # tidelock - `make help` lists the targets.
 .DEFAULT_GOAL := all
+.SECONDARY:
 SHELL := /bin/bash
 
 CC ?= cc

@@ -1,0 +1,63 @@
+/* tl_test.c - helpers shared by the cmocka tests (see tl_test.h). */
+#include "tl_test.h"
+
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+
+uint64_t tl_test_seed(const char *test, uint64_t fallback)
+{
+    const char *e = getenv("TL_TEST_SEED");
+    const uint64_t seed = (e != NULL && *e != '\0') ? strtoull(e, NULL, 0) : fallback;
+    printf("[ SEED     ] %s: %llu (rerun with TL_TEST_SEED=%llu)\n", test, (unsigned long long)seed,
+           (unsigned long long)seed);
+    return seed;
+}
+
+void tl_test_tone(int16_t *x, size_t n, double amp, double cycles, double phase, uint64_t start, unsigned bits)
+{
+    const double fs = ldexp(1.0, (int)bits - 1);
+    const long hi = (1L << (bits - 1u)) - 1L, lo = -(1L << (bits - 1u));
+    for (size_t i = 0; i < n; i++) {
+        const double t = (double)(start + i);
+        long code = lround(amp * fs * cos(2.0 * M_PI * cycles * t + phase));
+        code = code > hi ? hi : code < lo ? lo : code;
+        x[i] = (int16_t)(code * (1L << (16u - bits)));
+    }
+}
+
+tl_chain *tl_test_chain(void)
+{
+    tl_chain *c = calloc(1, sizeof *c);
+    if (c == NULL)
+        abort();
+    return c;
+}
+
+tl_product *tl_test_product(void)
+{
+    tl_product *p = calloc(1, sizeof *p);
+    if (p == NULL)
+        abort();
+    return p;
+}
+
+unsigned tl_test_push_all(tl_chain *c, const int16_t *in0, const int16_t *in1, size_t n, tl_product *out)
+{
+    unsigned taken = 0;
+    size_t done = 0;
+    while (done < n) {
+        size_t used = 0;
+        const tl_status st = tl_chain_push(c, in0 + done, in1 ? in1 + done : NULL, n - done, &used);
+        if (st != TL_OK)
+            fail_msg("tl_chain_push: %s", tl_status_name(st));
+        done += used;
+        if (tl_chain_ready(c)) {
+            const tl_status ts = tl_chain_take(c, out);
+            if (ts != TL_OK)
+                fail_msg("tl_chain_take: %s", tl_status_name(ts));
+            taken++;
+        }
+    }
+    return taken;
+}
