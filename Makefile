@@ -19,7 +19,7 @@ TEST_LIBS := -lcmocka
 FW_SRC := $(sort $(wildcard firmware/*.c))
 HOST_LIB_SRC := $(filter-out host/tidelock_main.c host/tablegen_main.c,$(sort $(wildcard host/*.c)))
 TEST_SRC := $(sort $(wildcard tests/test_*.c))
-TEST_SUPPORT_SRC := $(filter-out $(TEST_SRC),$(sort $(wildcard tests/*.c)))
+TEST_SUPPORT_SRC := $(filter-out $(TEST_SRC) tests/degraded_%.c,$(sort $(wildcard tests/*.c)))
 TESTS := $(patsubst tests/%.c,%,$(TEST_SRC))
 
 # $(call objs,VARIANT,SOURCES)
@@ -36,7 +36,7 @@ san_FW := $(FW_CFLAGS) $(SAN_FLAGS) -O1
 san_HOST := $(HOST_CFLAGS) $(SAN_FLAGS) -O1
 san_LD := $(SAN_FLAGS)
 deg_FW := $(FW_CFLAGS) -DTL_FFT_DATA_BITS=16
-deg_HOST := $(HOST_CFLAGS)
+deg_HOST := $(HOST_CFLAGS) -DTL_FFT_DATA_BITS=16
 deg_LD :=
 
 define variant
@@ -58,6 +58,10 @@ endef
 $(eval $(call variant,rel))
 $(eval $(call variant,san))
 $(eval $(call variant,deg))
+
+# the must-fail test exists only in the degraded variant
+$(BUILD)/deg/test_degraded: $(BUILD)/deg/tests/degraded_must_fail.o $(call objs,deg,$(TEST_SUPPORT_SRC)) $(BUILD)/deg/libtl.a
+	$(CC) $^ $(TEST_LIBS) $(HOST_LIBS) -o $@
 
 # ---- firmware purity: no floating point, libm, malloc or stdio -------------
 # Compiled once more with -mgeneral-regs-only (x86-64: any float becomes a
