@@ -1,0 +1,21 @@
+#!/usr/bin/env bash
+# deps.sh - install the Debian packages tidelock needs, only those missing.
+# Uses sudo when not root. --no-install-recommends keeps the install small.
+set -euo pipefail
+pkgs=(gcc make pkg-config libfftw3-dev libcmocka-dev libjansson-dev)
+missing=()
+for p in "${pkgs[@]}"; do
+    dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed" || missing+=("$p")
+done
+if [ ${#missing[@]} -eq 0 ]; then
+    echo "deps: all Debian packages present (${pkgs[*]})"
+    exit 0
+fi
+sudo=""
+if [ "$(id -u)" -ne 0 ]; then
+    command -v sudo >/dev/null || { echo "deps: need root or sudo to install: ${missing[*]}" >&2; exit 1; }
+    sudo="sudo"
+fi
+echo "deps: installing ${missing[*]}"
+$sudo apt-get update -q
+DEBIAN_FRONTEND=noninteractive $sudo apt-get install -y --no-install-recommends "${missing[@]}"
