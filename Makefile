@@ -73,9 +73,10 @@ $(BUILD)/purity/%.o: firmware/%.c $(wildcard firmware/*.h) | $(BUILD)/purity
 $(BUILD)/purity:
 	mkdir -p $@
 $(BUILD)/purity/ok: $(patsubst firmware/%.c,$(BUILD)/purity/%.o,$(FW_SRC))
-	@bad=$$(nm -u --format=posix $^ | awk '{print $$1}' | sort -u | grep -vxE '$(subst $(space),|,$(FW_ALLOWED_UNDEF))|[^ ]*:' || true); \
-	if [ -n "$$bad" ]; then echo "firmware purity check FAILED: firmware objects reference: $$bad"; exit 1; fi; \
-	echo "firmware purity: no floating point, libm, malloc or stdio in $(words $^) objects"; touch $@
+	@ld -r -o $(BUILD)/purity/firmware.o $^
+	@bad=$$(nm -u $(BUILD)/purity/firmware.o | awk '{print $$NF}' | grep -vxE '$(subst $(space),|,$(FW_ALLOWED_UNDEF))' || true); \
+	if [ -n "$$bad" ]; then echo "firmware purity check FAILED: firmware references: $$(echo $$bad)"; exit 1; fi; \
+	echo "firmware purity: $(words $^) objects reference nothing beyond $(FW_ALLOWED_UNDEF)"; touch $@
 space := $(subst ,, )
 
 # ---- tables ---------------------------------------------------------------
@@ -94,16 +95,26 @@ deps: ## install missing Debian packages (uses sudo when not root)
 run: deps all ## install packages, build, run the default scenario into out/
 	$(BUILD)/tidelock run -o out
 
-test: all test-rel test-deg test-san ## every test, then again under ASan+UBSan
-	@echo "make test: all suites passed"
+REL_TESTS := $(addprefix $(BUILD)/rel/,$(TESTS))
+SAN_TESTS := $(addprefix $(BUILD)/san/,$(TESTS))
+SAN_ENV := ASAN_OPTIONS=detect_leaks=1:abort_on_error=0 UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1
 
-test-rel: $(addprefix $(BUILD)/rel/,$(TESTS)) $(BUILD)/purity/ok
+# Binaries build in parallel (make -j2 test); suites run one after another.
+test: all $(REL_TESTS) $(SAN_TESTS) $(BUILD)/deg/test_degraded ## every test, the must-fail build, then all again under ASan+UBSan
+	@rm -f $(BUILD)/tally; \
+	TL_TALLY=$(BUILD)/tally bash tests/run_suite.sh $(BUILD)/rel $(TESTS); r1=$$?; \
+	TL_TALLY=$(BUILD)/tally bash tests/run_suite.sh $(BUILD)/deg test_degraded; r2=$$?; \
+	TL_TALLY=$(BUILD)/tally $(SAN_ENV) bash tests/run_suite.sh $(BUILD)/san $(TESTS); r3=$$?; \
+	awk '{p+=$$1; f+=$$2} END {printf "all suites: %d passed, %d failed\n", p, f}' $(BUILD)/tally; \
+	[ $$r1 -eq 0 ] && [ $$r2 -eq 0 ] && [ $$r3 -eq 0 ]
+
+test-rel: $(REL_TESTS) $(BUILD)/purity/ok ## the tests, release build only
 	@bash tests/run_suite.sh $(BUILD)/rel $(TESTS)
 
-test-san: $(addprefix $(BUILD)/san/,$(TESTS))
-	@ASAN_OPTIONS=detect_leaks=1 UBSAN_OPTIONS=print_stacktrace=1 bash tests/run_suite.sh $(BUILD)/san $(TESTS)
+test-san: $(SAN_TESTS) ## the tests under ASan+UBSan only
+	@$(SAN_ENV) bash tests/run_suite.sh $(BUILD)/san $(TESTS)
 
-test-deg: $(BUILD)/deg/test_degraded
+test-deg: $(BUILD)/deg/test_degraded ## the must-fail degraded build only
 	@bash tests/run_suite.sh $(BUILD)/deg test_degraded
 
 tables: $(BUILD)/tl-tablegen ## regenerate the committed firmware tables

@@ -18,4 +18,5 @@ for t in "$@"; do
     passed=$((passed + p)); failed=$((failed + f))
 done
 echo "tests ($dir): $passed passed, $failed failed"
+[ -n "${TL_TALLY:-}" ] && echo "$passed $failed" >>"$TL_TALLY"
 [ "$failed" -eq 0 ]
