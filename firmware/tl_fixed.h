@@ -64,8 +64,8 @@ static inline int64_t tl_round_shr_s64(int64_t v, unsigned s, tl_rounding mode)
     return q + (int64_t)tl_round_increment(low, (uint64_t)q & 1u, s, mode);
 }
 
-/* v / 2^s rounded by mode for unsigned v, 0 <= s <= 63. v <= 2^63 never
- * overflows; in general the result is at most 2^(64-s). */
+/* v / 2^s rounded by mode for unsigned v, 0 <= s <= 63. Never overflows for
+ * s >= 1: the floor is at most 2^(64-s) - 1 and the increment at most 1. */
 static inline uint64_t tl_round_shr_u64(uint64_t v, unsigned s, tl_rounding mode)
 {
     if (s == 0u)

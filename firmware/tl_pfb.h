@@ -45,7 +45,8 @@ typedef struct tl_pfb {
 
 /* Validate and start an empty filterbank for `table`.
  * Returns TL_OK, TL_E_NULL, TL_E_ROUNDING, TL_E_TABLE_FORMAT (shift out of
- * range). Taps and points come from the table (already checked on load). */
+ * range), TL_E_TAPS or TL_E_POINTS (table geometry outside the build's range).
+ * Taps and points come from the table. */
 tl_status tl_pfb_init(tl_pfb *pfb, const tl_taps *table, tl_rounding rounding);
 
 /* Forget all history (the next P-1 frames give no output). */

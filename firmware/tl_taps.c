@@ -26,6 +26,18 @@ static int points_ok(uint32_t n)
     return n >= TL_MIN_POINTS && n <= TL_MAX_POINTS && (n & (n - 1u)) == 0u;
 }
 
+/* Geometry a tl_taps may hold: taps 1..TL_MAX_TAPS, points a power of two
+ * in [TL_MIN_POINTS, TL_MAX_POINTS], so taps * points fits coef[]. */
+static int geometry_ok(uint32_t taps, uint32_t points)
+{
+    return taps >= 1u && taps <= TL_MAX_TAPS && points_ok(points);
+}
+
+static int window_ok(uint32_t w)
+{
+    return w <= (uint32_t)TL_WINDOW_BLACKMAN_HARRIS4 || w == (uint32_t)TL_WINDOW_OTHER;
+}
+
 /* The 16 header bytes of an image with these fields. */
 typedef struct taps_fields {
     uint32_t points, taps, shift, window;
@@ -71,7 +83,7 @@ tl_status tl_taps_check_image(const uint8_t *img, size_t len, uint32_t *points_o
         return TL_E_TAPS;
     if (!points_ok(points))
         return TL_E_POINTS;
-    if (shift < TL_TAPS_MIN_SHIFT || shift > TL_TAPS_MAX_SHIFT)
+    if (shift < TL_TAPS_MIN_SHIFT || shift > TL_TAPS_MAX_SHIFT || !window_ok(img[5]))
         return TL_E_TABLE_FORMAT;
     const size_t count = (size_t)taps * points;
     if (len != TL_TAPS_IMAGE_BYTES(taps, points))
@@ -132,6 +144,8 @@ uint32_t tl_taps_crc_of(uint32_t points, uint32_t taps, uint32_t shift, uint32_t
 
 uint32_t tl_taps_image_crc(const tl_taps *t)
 {
+    if (!geometry_ok(t->taps, t->points))
+        return 0u;
     const taps_fields f = fields_of(t);
     return image_crc(&f, t->coef);
 }
@@ -140,6 +154,12 @@ tl_status tl_taps_write_image(const tl_taps *t, uint8_t *out, size_t cap, size_t
 {
     if (t == NULL || out == NULL || len == NULL)
         return TL_E_NULL;
+    if (t->taps < 1u || t->taps > TL_MAX_TAPS)
+        return TL_E_TAPS;
+    if (!points_ok(t->points))
+        return TL_E_POINTS;
+    if (t->shift < TL_TAPS_MIN_SHIFT || t->shift > TL_TAPS_MAX_SHIFT || !window_ok(t->window))
+        return TL_E_TABLE_FORMAT;
     const size_t count = (size_t)t->taps * t->points;
     const size_t need = TL_TAPS_IMAGE_BYTES(t->taps, t->points);
     if (cap < need)
