@@ -100,7 +100,7 @@ SAN_TESTS := $(addprefix $(BUILD)/san/,$(TESTS))
 SAN_ENV := ASAN_OPTIONS=detect_leaks=1:abort_on_error=0 UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1
 
 # Binaries build in parallel (make -j2 test); suites run one after another.
-test: all $(REL_TESTS) $(SAN_TESTS) $(BUILD)/deg/test_degraded ## every test, the must-fail build, then all again under ASan+UBSan
+test: all $(REL_TESTS) $(SAN_TESTS) $(BUILD)/san/tidelock $(BUILD)/deg/test_degraded ## every test, the must-fail build, then all again under ASan+UBSan
 	@rm -f $(BUILD)/tally; \
 	TL_TALLY=$(BUILD)/tally bash tests/run_suite.sh $(BUILD)/rel $(TESTS); r1=$$?; \
 	TL_TALLY=$(BUILD)/tally bash tests/run_suite.sh $(BUILD)/deg test_degraded; r2=$$?; \
@@ -108,10 +108,10 @@ test: all $(REL_TESTS) $(SAN_TESTS) $(BUILD)/deg/test_degraded ## every test, th
 	awk '{p+=$$1; f+=$$2} END {printf "all suites: %d passed, %d failed\n", p, f}' $(BUILD)/tally; \
 	[ $$r1 -eq 0 ] && [ $$r2 -eq 0 ] && [ $$r3 -eq 0 ]
 
-test-rel: $(REL_TESTS) $(BUILD)/purity/ok ## the tests, release build only
+test-rel: $(REL_TESTS) $(BUILD)/rel/tidelock $(BUILD)/purity/ok ## the tests, release build only
 	@bash tests/run_suite.sh $(BUILD)/rel $(TESTS)
 
-test-san: $(SAN_TESTS) ## the tests under ASan+UBSan only
+test-san: $(SAN_TESTS) $(BUILD)/san/tidelock ## the tests under ASan+UBSan only
 	@$(SAN_ENV) bash tests/run_suite.sh $(BUILD)/san $(TESTS)
 
 test-deg: $(BUILD)/deg/test_degraded ## the must-fail degraded build only

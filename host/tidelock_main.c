@@ -35,6 +35,9 @@ static int cmd_run(int argc, char **argv)
                 return 2;
             }
             s.drive_db = v;
+        } else if (strcmp(argv[i], "-o") == 0 || strcmp(argv[i], "--drive") == 0) {
+            fprintf(stderr, "tidelock run: %s needs a value (-o DIR, --drive DB from -40 to 12)\n", argv[i]);
+            return 2;
         } else {
             fprintf(stderr, "tidelock run: unknown option '%s' (allowed: -o DIR, --drive DB)\n", argv[i]);
             return 2;
@@ -79,7 +82,7 @@ static int cmd_tables(int argc, char **argv)
     snprintf(tmp, sizeof tmp, "%s.tmp", argv[1]);
     FILE *f = fopen(tmp, "w");
     if (f == NULL) {
-        fprintf(stderr, "tidelock tables: %s: %s\n", tmp, strerror(errno));
+        fprintf(stderr, "tidelock tables: %s: cannot write: %s\n", argv[1], strerror(errno));
         return 1;
     }
     int rc = strcmp(argv[0], "twiddle-source") == 0 ? tl_gen_twiddle_source(f) : tl_gen_default_taps_source(f);
