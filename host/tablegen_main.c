@@ -11,22 +11,10 @@ int main(int argc, char **argv)
         fprintf(stderr, "usage: tl-tablegen twiddle|taps OUTPUT.c\n");
         return 2;
     }
-    char tmp[4096];
-    if (snprintf(tmp, sizeof tmp, "%s.tmp", argv[2]) >= (int)sizeof tmp) {
-        fprintf(stderr, "tl-tablegen: %s: path too long\n", argv[2]);
-        return 1;
-    }
-    FILE *f = fopen(tmp, "w");
-    if (f == NULL) {
-        perror(tmp);
-        return 1;
-    }
-    int rc = strcmp(argv[1], "twiddle") == 0 ? tl_gen_twiddle_source(f) : tl_gen_default_taps_source(f);
-    if (fclose(f) != 0)
-        rc = -1;
-    if (rc != 0 || rename(tmp, argv[2]) != 0) {
-        fprintf(stderr, "tl-tablegen: %s: write failed\n", argv[2]);
-        remove(tmp);
+    char err[4400];
+    if (tl_gen_write_file(argv[2], strcmp(argv[1], "twiddle") == 0 ? tl_gen_twiddle_source : tl_gen_default_taps_source,
+                          err, sizeof err) != 0) {
+        fprintf(stderr, "tl-tablegen: %s\n", err);
         return 1;
     }
     return 0;

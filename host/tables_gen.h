@@ -23,6 +23,11 @@ int tl_gen_twiddle_source(FILE *out);
 /* Write the C source of the default coefficient table (8192 points, 4 taps, Hann). */
 int tl_gen_default_taps_source(FILE *out);
 
+/* Write a generated source to `path` atomically: into path.tmp, then rename.
+ * On failure nothing is left behind and err (cap bytes) gets one line naming
+ * the file. Returns 0 or -1. */
+int tl_gen_write_file(const char *path, int (*gen)(FILE *out), char *err, size_t cap);
+
 /* The default table's design parameters. */
 #define TL_GEN_DEFAULT_WINDOW TL_WINDOW_HANN
 

@@ -78,19 +78,11 @@ static int cmd_tables(int argc, char **argv)
         fprintf(stderr, "tidelock tables: expected 'twiddle-source FILE' or 'taps-source FILE'\n");
         return 2;
     }
-    char tmp[4200];
-    snprintf(tmp, sizeof tmp, "%s.tmp", argv[1]);
-    FILE *f = fopen(tmp, "w");
-    if (f == NULL) {
-        fprintf(stderr, "tidelock tables: %s: cannot write: %s\n", argv[1], strerror(errno));
-        return 1;
-    }
-    int rc = strcmp(argv[0], "twiddle-source") == 0 ? tl_gen_twiddle_source(f) : tl_gen_default_taps_source(f);
-    if (fclose(f) != 0)
-        rc = -1;
-    if (rc != 0 || rename(tmp, argv[1]) != 0) {
-        fprintf(stderr, "tidelock tables: %s: write failed\n", argv[1]);
-        remove(tmp);
+    char err[4400];
+    if (tl_gen_write_file(argv[1], strcmp(argv[0], "twiddle-source") == 0 ? tl_gen_twiddle_source
+                                                                         : tl_gen_default_taps_source,
+                          err, sizeof err) != 0) {
+        fprintf(stderr, "tidelock tables: %s\n", err);
         return 1;
     }
     return 0;

@@ -585,53 +585,10 @@ static void default_table(void **state)
     guard_free(&g);
 }
 
-/* Read a whole stream into a malloc'd buffer. */
-static char *slurp(FILE *f, size_t *n)
-{
-    size_t cap = 1u << 16, len = 0;
-    char *buf = malloc(cap);
-    assert_non_null(buf);
-    for (;;) {
-        if (len == cap) {
-            cap *= 2u;
-            buf = realloc(buf, cap);
-            assert_non_null(buf);
-        }
-        const size_t got = fread(buf + len, 1, cap - len, f);
-        len += got;
-        if (got == 0)
-            break;
-    }
-    assert_int_equal(ferror(f), 0);
-    *n = len;
-    return buf;
-}
-
 static void default_source_regenerates(void **state)
 {
     (void)state;
-    FILE *tmp = tmpfile();
-    assert_non_null(tmp);
-    assert_int_equal(tl_gen_default_taps_source(tmp), 0);
-    rewind(tmp);
-    size_t n_gen = 0, n_com = 0;
-    char *gen = slurp(tmp, &n_gen);
-    fclose(tmp);
-    FILE *com = fopen("firmware/tl_taps_default.c", "rb");
-    if (com == NULL)
-        fail_msg("cannot open firmware/tl_taps_default.c (run the tests from the repository root)");
-    char *committed = slurp(com, &n_com);
-    fclose(com);
-    assert_true(n_gen > 100000u); /* 32768 coefficients */
-    size_t first = 0;
-    while (first < n_gen && first < n_com && gen[first] == committed[first])
-        first++;
-    if (n_gen != n_com || first != n_gen)
-        fail_msg("firmware/tl_taps_default.c differs from the generator (first difference at byte %zu; "
-                 "generated %zu bytes, committed %zu): run make tables",
-                 first, n_gen, n_com);
-    free(gen);
-    free(committed);
+    tl_test_generated_matches("firmware/tl_taps_default.c", tl_gen_default_taps_source, 100000u); /* 32768 coefficients */
 }
 
 int main(void)

@@ -61,3 +61,51 @@ unsigned tl_test_push_all(tl_chain *c, const int16_t *in0, const int16_t *in1, s
     }
     return taken;
 }
+
+/* Read a whole stream into a malloc'd buffer. */
+static char *slurp(FILE *f, size_t *n)
+{
+    size_t cap = 1u << 16, len = 0;
+    char *buf = malloc(cap);
+    assert_non_null(buf);
+    for (;;) {
+        if (len == cap) {
+            cap *= 2u;
+            buf = realloc(buf, cap);
+            assert_non_null(buf);
+        }
+        const size_t got = fread(buf + len, 1, cap - len, f);
+        len += got;
+        if (got == 0)
+            break;
+    }
+    assert_int_equal(ferror(f), 0);
+    *n = len;
+    return buf;
+}
+
+void tl_test_generated_matches(const char *path, int (*gen)(FILE *out), size_t min_bytes)
+{
+    FILE *tmp = tmpfile();
+    assert_non_null(tmp);
+    assert_int_equal(gen(tmp), 0);
+    rewind(tmp);
+    size_t n_gen = 0, n_com = 0;
+    char *generated = slurp(tmp, &n_gen);
+    fclose(tmp);
+    FILE *com = fopen(path, "rb");
+    if (com == NULL)
+        fail_msg("cannot open %s (run the tests from the repository root)", path);
+    char *committed = slurp(com, &n_com);
+    fclose(com);
+    assert_true(n_gen >= min_bytes);
+    size_t first = 0;
+    while (first < n_gen && first < n_com && generated[first] == committed[first])
+        first++;
+    if (n_gen != n_com || first != n_gen)
+        fail_msg("%s differs from the generator (first difference at byte %zu; generated %zu bytes, committed %zu): "
+                 "run make tables",
+                 path, first, n_gen, n_com);
+    free(generated);
+    free(committed);
+}

@@ -12,6 +12,7 @@
 #include <stdarg.h>
 #include <stddef.h>
 #include <stdint.h>
+#include <stdio.h>
 #include <cmocka.h>
 
 #include "tl_chain.h"
@@ -32,6 +33,12 @@ tl_product *tl_test_product(void);
  * (the last one wins). Returns the number of products taken. Fails the
  * test on any error status. */
 unsigned tl_test_push_all(tl_chain *c, const int16_t *in0, const int16_t *in1, size_t n, tl_product *out);
+
+/* Assert that gen() writes exactly the bytes of the committed file `path`
+ * (relative to the repository root, where the tests run) and at least
+ * min_bytes of them; the failure names the first differing byte and says
+ * "run make tables". */
+void tl_test_generated_matches(const char *path, int (*gen)(FILE *out), size_t min_bytes);
 
 /* Assert |a - b| <= tol with a message naming both values. */
 #define TL_ASSERT_NEAR(a, b, tol)                                                                                    \
