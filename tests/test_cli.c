@@ -3,7 +3,10 @@
  * a non-zero exit, and no lost or half-written output. Runs the tidelock
  * binary built next to this test (build/rel/tidelock, build/san/tidelock).
  */
+#include <dirent.h>
+#include <jansson.h>
 #include <libgen.h>
+#include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -114,6 +117,46 @@ static void test_tables_regenerate(void **state)
     remove(path);
 }
 
+/* The whole default run: exit 0, a summary that parses, carries the
+ * verdict and the figures, and no temporary file left in the folder. */
+static void test_run_writes_summary(void **state)
+{
+    (void)state;
+    char dir[] = "/tmp/tl_cli_run_XXXXXX";
+    assert_non_null(mkdtemp(dir));
+    char args[256], out[16384], path[512];
+    snprintf(args, sizeof args, "run -o %s", dir);
+    assert_int_equal(run(args, out, sizeof out), 0);
+    assert_non_null(strstr(out, "verdict: PASS"));
+    snprintf(path, sizeof path, "%s/summary.json", dir);
+    json_error_t jerr;
+    json_t *root = json_load_file(path, 0, &jerr);
+    if (root == NULL)
+        fail_msg("%s: %s", path, jerr.text);
+    assert_string_equal(json_string_value(json_object_get(json_object_get(root, "verdict"), "result")), "PASS");
+    const json_t *auto0 = json_object_get(json_object_get(root, "fidelity"), "auto0");
+    const double margin = json_real_value(json_object_get(auto0, "margin"));
+    const double ext = json_real_value(json_object_get(auto0, "margin_extrapolated"));
+    printf("    summary.json: auto0 margin %.3e, extrapolated %.3e\n", margin, ext);
+    assert_true(margin > 0.0 && margin < 0.01);
+    assert_true(ext > 0.0 && ext < 0.01);
+    assert_int_equal(json_integer_value(json_object_get(json_object_get(root, "config"), "channels")), 4096);
+    json_decref(root);
+    DIR *d = opendir(dir);
+    struct dirent *e;
+    int files = 0;
+    while ((e = readdir(d)) != NULL) {
+        if (e->d_name[0] == '.')
+            continue;
+        files++;
+        assert_string_equal(e->d_name, "summary.json");
+    }
+    closedir(d);
+    assert_int_equal(files, 1);
+    remove(path);
+    rmdir(dir);
+}
+
 int main(int argc, char **argv)
 {
     (void)argc;
@@ -124,6 +167,7 @@ int main(int argc, char **argv)
         cmocka_unit_test(test_bad_commands_and_options),
         cmocka_unit_test(test_unwritable_output),
         cmocka_unit_test(test_tables_regenerate),
+        cmocka_unit_test(test_run_writes_summary),
     };
     return cmocka_run_group_tests_name("cli", tests, NULL, NULL);
 }
