@@ -80,7 +80,7 @@ $(BUILD)/purity/ok: $(patsubst firmware/%.c,$(BUILD)/purity/%.o,$(FW_SRC))
 space := $(subst ,, )
 
 # ---- tables ---------------------------------------------------------------
-$(BUILD)/tl-tablegen: host/tablegen_main.c host/tables_gen.c host/taps_design.c firmware/tl_taps.c firmware/tl_crc32c.c
+$(BUILD)/tl-tablegen: host/tablegen_main.c host/tables_gen.c host/taps_design.c host/atomic_file.c firmware/tl_taps.c firmware/tl_crc32c.c
 	mkdir -p $(BUILD)
 	$(CC) $(HOST_CFLAGS) $(INCLUDES) $^ -lm -o $@
 

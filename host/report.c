@@ -6,6 +6,7 @@
 #include <math.h>
 #include <string.h>
 #include <unistd.h>
+#include "atomic_file.h"
 #include "taps_design.h"
 
 static const char *rounding_name(uint32_t r)
@@ -68,6 +69,11 @@ void tl_report_print(FILE *out, const tl_scenario *s, const tl_run_result *r)
                 TL_FID_MARGIN_MAX, TL_FID_BIAS_MAX, TL_FID_BIAS_SE_MAX, TL_FID_CHI2_Z_MAX);
     else
         fprintf(out, "verdict: FAIL (%d checks)\n%s", fails, why);
+}
+
+static int dump_json(FILE *f, void *root)
+{
+    return json_dumpf((json_t *)root, f, JSON_INDENT(2) | JSON_REAL_PRECISION(10)) == 0 ? 0 : -1;
 }
 
 static json_t *metrics_json(const tl_fid_metrics *m, double margin_ext)
@@ -135,19 +141,7 @@ int tl_report_write_json(const char *path, const tl_scenario *s, const tl_run_re
     const int fails = tl_fidelity_verdict(f, why, sizeof why);
     json_object_set_new(root, "verdict", json_pack("{s:s, s:i, s:s}", "result", fails ? "FAIL" : "PASS", "failures",
                                                    fails, "reasons", why));
-    char tmp[4200];
-    int rc = -1;
-    if (snprintf(tmp, sizeof tmp, "%s.tmp.%ld", path, (long)getpid()) >= (int)sizeof tmp) {
-        snprintf(err, cap, "%s: path too long", path);
-    } else if (json_dump_file(root, tmp, JSON_INDENT(2) | JSON_REAL_PRECISION(10)) != 0) {
-        snprintf(err, cap, "%s: cannot write: %s", tmp, strerror(errno));
-        remove(tmp);
-    } else if (rename(tmp, path) != 0) {
-        snprintf(err, cap, "%s: cannot rename into place: %s", path, strerror(errno));
-        remove(tmp);
-    } else {
-        rc = 0;
-    }
+    const int rc = tl_atomic_write(path, dump_json, root, err, cap);
     json_decref(root);
     return rc;
 }

@@ -1,10 +1,10 @@
 /* tables_gen.c - writers of the committed firmware tables (see tables_gen.h). */
 #include "tables_gen.h"
 
-#include <errno.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
+#include "atomic_file.h"
 #include "taps_design.h"
 #include "tl_crc32c.h"
 #include "tl_twiddle.h"
@@ -70,25 +70,13 @@ int tl_gen_default_taps_source(FILE *out)
     return rc;
 }
 
+static int call_gen(FILE *f, void *ctx)
+{
+    int (*const *gen)(FILE *) = ctx;
+    return (*gen)(f);
+}
+
 int tl_gen_write_file(const char *path, int (*gen)(FILE *out), char *err, size_t cap)
 {
-    char tmp[4200];
-    if (snprintf(tmp, sizeof tmp, "%s.tmp", path) >= (int)sizeof tmp) {
-        snprintf(err, cap, "%s: path too long", path);
-        return -1;
-    }
-    FILE *f = fopen(tmp, "w");
-    if (f == NULL) {
-        snprintf(err, cap, "%s: cannot write: %s", path, strerror(errno));
-        return -1;
-    }
-    int rc = gen(f);
-    if (fclose(f) != 0)
-        rc = -1;
-    if (rc != 0 || rename(tmp, path) != 0) {
-        snprintf(err, cap, "%s: write failed", path);
-        remove(tmp);
-        return -1;
-    }
-    return 0;
+    return tl_atomic_write(path, call_gen, &gen, err, cap);
 }
