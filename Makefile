@@ -13,7 +13,7 @@ FW_CFLAGS := -std=c11 -O2 -g -ffreestanding -Wall -Wextra -Wconversion -Wshadow 
 # bit-reproducible (no fused multiply-adds chosen by the compiler).
 HOST_CFLAGS := -std=c11 -O2 -g -D_DEFAULT_SOURCE -Wall -Wextra -Wshadow -Werror -ffp-contract=off
 INCLUDES := -Ifirmware -Ihost
-HOST_LIBS := -lfftw3 -ljansson -lm
+HOST_LIBS := -lfftw3 -ljansson -linih -lm
 TEST_LIBS := -lcmocka
 
 FW_SRC := $(sort $(wildcard firmware/*.c))
@@ -84,8 +84,26 @@ $(BUILD)/tl-tablegen: host/tablegen_main.c host/tables_gen.c host/taps_design.c 
 	mkdir -p $(BUILD)
 	$(CC) $(HOST_CFLAGS) $(INCLUDES) $^ -lm -o $@
 
+# ---- install ----------------------------------------------------------------
+PREFIX ?= /usr/local
+DESTDIR ?=
+VERSION := $(shell sed -n 's/^\#define TL_TOOL_VERSION "\(.*\)"/\1/p' host/version.h)
+FW_LIB := $(BUILD)/rel/libtidelock-firmware.a
+$(FW_LIB): $(call objs,rel,$(FW_SRC))
+	rm -f $@ && ar rcs $@ $^
+
+install: all $(FW_LIB) ## install the CLI, firmware library, headers, pkg-config file, man page (PREFIX=, DESTDIR=)
+	install -d $(DESTDIR)$(PREFIX)/bin $(DESTDIR)$(PREFIX)/lib/pkgconfig $(DESTDIR)$(PREFIX)/include/tidelock \
+	    $(DESTDIR)$(PREFIX)/share/man/man1
+	install -m 755 $(BUILD)/rel/tidelock $(DESTDIR)$(PREFIX)/bin/tidelock
+	install -m 644 $(FW_LIB) $(DESTDIR)$(PREFIX)/lib/libtidelock-firmware.a
+	install -m 644 firmware/*.h $(DESTDIR)$(PREFIX)/include/tidelock/
+	install -m 644 docs/tidelock.1 $(DESTDIR)$(PREFIX)/share/man/man1/tidelock.1
+	sed -e 's|@PREFIX@|$(PREFIX)|' -e 's|@VERSION@|$(VERSION)|' firmware/tidelock-firmware.pc.in \
+	    > $(DESTDIR)$(PREFIX)/lib/pkgconfig/tidelock-firmware.pc
+
 # ---- user targets ---------------------------------------------------------
-.PHONY: all run test test-rel test-san test-deg purity tables deps help clean bench
+.PHONY: all run test test-rel test-san test-deg purity tables deps help clean install
 all: $(BUILD)/rel/tidelock $(BUILD)/purity/ok ## build the CLI and check firmware purity
 	ln -sf rel/tidelock $(BUILD)/tidelock
 

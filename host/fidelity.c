@@ -56,6 +56,33 @@ static void store_product(block_sums *b, uint32_t j, const tl_product *p)
     }
 }
 
+/* Fold one block product into the M-spectrum product (first: copy). */
+static void add_product(tl_product *t, const tl_product *p, int first)
+{
+    if (first) {
+        memcpy(t, p, sizeof *t);
+        return;
+    }
+    for (uint32_t k = 0; k < p->channels; k++) {
+        uint32_t sat = 0;
+        for (uint32_t i = 0; i < p->inputs; i++) {
+            sat = 0;
+            t->auto_power[i][k] = tl_sat_add_u64(t->auto_power[i][k], p->auto_power[i][k], &sat);
+            if (sat)
+                t->flags[k] = (uint8_t)(t->flags[k] | (i == 0 ? TL_FLAG_SAT_AUTO0 : TL_FLAG_SAT_AUTO1));
+        }
+        sat = 0;
+        t->cross_re[k] = tl_sat_add_s64(t->cross_re[k], p->cross_re[k], &sat);
+        if (sat)
+            t->flags[k] = (uint8_t)(t->flags[k] | TL_FLAG_SAT_CROSS_RE);
+        sat = 0;
+        t->cross_im[k] = tl_sat_add_s64(t->cross_im[k], p->cross_im[k], &sat);
+        if (sat)
+            t->flags[k] = (uint8_t)(t->flags[k] | TL_FLAG_SAT_CROSS_IM);
+        t->flags[k] = (uint8_t)(t->flags[k] | p->flags[k]);
+    }
+}
+
 static void add_stats(tl_stats *t, const tl_stats *s)
 {
     for (unsigned i = 0; i < TL_MAX_INPUTS; i++) {
@@ -234,6 +261,7 @@ tl_status tl_fidelity_run(const tl_fid_setup *su, tl_fid_result *res)
             continue;
         tl_chain_take(chA, prod);
         store_product(&fa, j, prod);
+        add_product(&res->product, prod, j == 0);
         add_stats(&res->stats, &prod->stats);
         for (uint32_t k = 0; k < K; k++)
             res->sat_flags += prod->flags[k] != 0u;
@@ -242,7 +270,11 @@ tl_status tl_fidelity_run(const tl_fid_setup *su, tl_fid_result *res)
         tl_ref_take(refq, at(&rq, 0, j), at(&rq, 1, j), at(&rq, 2, j), at(&rq, 3, j));
         tl_ref_take(refi, at(&ri, 0, j), at(&ri, 1, j), at(&ri, 2, j), at(&ri, 3, j));
         j++;
+        if (su->progress != NULL)
+            su->progress(su->progress_ctx, j, J);
     }
+    res->product.spectra = M;
+    res->product.stats = res->stats;
 
     tl_noise_prediction np;
     tl_noise_predict(N, chA->fft.scale_mask, (tl_rounding)cfg.rounding, tq->shift - 15u, sA, &np);

@@ -59,6 +59,8 @@ typedef struct tl_fid_setup {
     uint32_t flight_spectra;  /* M' for the flight pass and extrapolation; 0: no flight pass */
     tl_fid_source source;
     void *source_state;
+    void (*progress)(void *ctx, uint32_t done, uint32_t total); /* per block; may be NULL */
+    void *progress_ctx;
 } tl_fid_setup;
 
 typedef struct tl_fid_metrics {
@@ -85,6 +87,9 @@ typedef struct tl_fid_result {
     double twiddle_gain;                      /* predicted band power gain error of the quantized twiddles */
     double mean_power_lsb2[TL_MAX_INPUTS];    /* band mean of |X|^2 per spectrum, firmware LSB^2 */
     tl_status status;                         /* TL_OK or why the run stopped */
+    tl_product product;                       /* the M-spectrum product: the J block products added
+                                                 (equal to one M-spectrum integration, since sums are
+                                                 exact; a channel that saturated in a block is flagged) */
 } tl_fid_result;
 
 /* Limits asserted at every drive level (docs/validation.md). */

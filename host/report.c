@@ -30,28 +30,37 @@ void tl_report_print(FILE *out, const tl_scenario *s, const tl_run_result *r)
             c->points, c->points / 2u, df / 1e3, c->taps, tl_window_name(s->window), c->inputs, c->inputs > 1 ? "s" : "",
             c->adc_bits, c->fft_scale_mask == TL_FFT_SCALE_AUTO ? tl_fft_default_mask(c->points) : c->fft_scale_mask,
             rounding_name(c->rounding), f->det_shift, f->flight_det_shift, f->flight_spectra, (unsigned)TL_ARITH_VERSION);
-    fprintf(out, "run: %u spectra in %u blocks, science band %.3f-%.3f MHz (channels %u-%u), drive %+.1f dB "
-                 "(RMS %.4f of full scale), %.1f s\n",
-            f->spectra, f->blocks, f->band_lo * df / 1e6, f->band_hi * df / 1e6, f->band_lo, f->band_hi - 1u,
-            s->drive_db, s->sky.rms_fs * pow(10.0, s->drive_db / 20.0), r->seconds);
+    const double spectrum_s = c->points / s->sky.sample_rate_hz;
+    fprintf(out, "run: %u spectra (%.3f s of data) in %u blocks, sample rate %.3f MHz, science band %.3f-%.3f MHz "
+                 "(channels %u-%u), drive %+.1f dB (RMS %.4f of full scale), %.1f s wall time\n",
+            f->spectra, f->spectra * spectrum_s, f->blocks, s->sky.sample_rate_hz / 1e6, f->band_lo * df / 1e6,
+            f->band_hi * df / 1e6, f->band_lo, f->band_hi - 1u, s->drive_db,
+            s->sky.rms_fs * pow(10.0, s->drive_db / 20.0), r->seconds);
     fprintf(out, "counters (all integrations):\n");
     for (uint32_t i = 0; i < c->inputs; i++) {
-        fprintf(out, "  input %u: ADC clips %u (generator %llu), PFB saturations %u, FFT saturations per stage [", i,
+        fprintf(out, "  input %u: ADC clips %u samples (generator %llu), PFB saturations %u samples, "
+                     "FFT saturations per stage [", i,
                 f->stats.adc_clips[i], (unsigned long long)r->generator_clips[i], f->stats.pfb_sat[i]);
         for (unsigned st = 0; st <= TL_MAX_FFT_STAGES; st++)
             fprintf(out, "%s%u", st ? " " : "", f->stats.fft_sat[i][st]);
-        fprintf(out, "] (last entry used: split)\n");
+        fprintf(out, "] values (entry %u: split)\n", f->product.fft_stages);
     }
-    fprintf(out, "  accumulator saturations: auto0 %u, auto1 %u, cross re %u, cross im %u; flagged channels %u\n",
+    fprintf(out, "  accumulator saturations (channels): auto0 %u, auto1 %u, cross re %u, cross im %u; "
+                 "flagged channels %u\n",
             f->stats.acc_sat[0], f->stats.acc_sat[1], f->stats.acc_sat[2], f->stats.acc_sat[3], f->sat_flags);
-    fprintf(out, "  mean channel power |X|^2: %.4g LSB^2 (input 0); predicted round-off E|e|^2: %.4g LSB^2 "
+    fprintf(out, "  mean channel power |X|^2 %.4g LSB^2 (input 0); predicted round-off E|e|^2 %.4g LSB^2 "
                  "(SQNR %.1f dB)\n",
             f->mean_power_lsb2[0], f->noise_pred_lsb2, 10.0 * log10(f->mean_power_lsb2[0] / f->noise_pred_lsb2));
     fprintf(out, "  predicted power gain error of the Q29 twiddles over the band: %.3e (a fixed per-channel gain, "
                  "removed by calibration)\n", f->twiddle_gain);
-    fprintf(out, "fidelity against the FFTW double reference (d = relative error; d*sqrt(M) in radiometer-noise units):\n");
+    fprintf(out, "fidelity against the FFTW double reference, M = %u, M' = %u spectra\n"
+                 "  ([rel]: relative to the channel's power; [noise]: units of the radiometer noise of M spectra, "
+                 "d*sqrt(M))\n",
+            f->spectra, f->flight_spectra);
     fprintf(out, "  %-8s %11s %10s %11s %12s %11s %13s %9s %11s\n", "product", "bias", "std.err", "predicted",
             "scatter/spec", "margin@M", "margin@M'ext", "chi2 z", "coef q.max");
+    fprintf(out, "  %-8s %11s %10s %11s %12s %11s %13s %9s %11s\n", "", "[rel]", "[rel]", "[rel]", "[rel]", "[noise]",
+            "[noise]", "[sigma]", "[noise]");
     for (int p = 0; p < TL_FID_PRODUCTS; p++) {
         const tl_fid_metrics *m = &f->main[p];
         if (!m->present)
@@ -113,6 +122,12 @@ int tl_report_write_json(const char *path, const tl_scenario *s, const tl_run_re
                                                                                        : c->fft_scale_mask),
                                   "det_shift", (json_int_t)f->det_shift, "flight_det_shift",
                                   (json_int_t)f->flight_det_shift));
+    /* firmware power counts to volts^2 at the ADC: P = |DFT(y)|^2 2^(60 - 2T - s) with y in full-scale units */
+    const double v2 = s->adc_full_scale_v * s->adc_full_scale_v *
+                      ldexp(1.0, 2 * (int)f->product.fft_total_shift + (int)f->det_shift - 60);
+    json_object_set_new(root, "units", json_pack("{s:f, s:s, s:s}", "volts2_per_count", v2, "power",
+                                                 "sum over the integration of |X|^2 / 2^det_shift, firmware counts",
+                                                 "frequency", "channel k at k * sample_rate / points"));
     json_object_set_new(root, "run", json_pack("{s:i, s:i, s:i, s:i, s:i, s:f}", "spectra", (json_int_t)f->spectra,
                                                "blocks", (json_int_t)f->blocks, "flight_spectra",
                                                (json_int_t)f->flight_spectra, "band_lo_channel",

@@ -14,7 +14,9 @@ typedef struct tl_run_result {
     double seconds;               /* wall time of the run */
 } tl_run_result;
 
-/* Run s at its drive level. Returns TL_OK or the first error. */
-tl_status tl_run_scenario(const tl_scenario *s, tl_run_result *r);
+/* Run s at its drive level. progress (may be NULL) is called after each
+ * block with (ctx, done, total). Returns TL_OK or the first error. */
+tl_status tl_run_scenario(const tl_scenario *s, tl_run_result *r, void (*progress)(void *, uint32_t, uint32_t),
+                          void *progress_ctx);
 
 #endif

@@ -1,18 +1,128 @@
-/* scenario.c - the built-in demo scenario (see scenario.h). */
+/* scenario.c - scenario files: defaults, parsing with inih, checks, writing.
+ * One table (keys[]) drives all four, so the example file, the parser and
+ * the error messages cannot disagree. */
 #include "scenario.h"
 
+#include <ctype.h>
+#include <errno.h>
+#include <ini.h>
 #include <math.h>
+#include <stdarg.h>
+#include <stddef.h>
+#include <stdlib.h>
 #include <string.h>
+
+#include "taps_design.h"
+
+typedef enum {
+    K_TEXT,     /* free text, char[size] */
+    K_NAME,     /* [A-Za-z0-9._-]{1,63}, char[size] */
+    K_U32,      /* unsigned integer in [min, max] */
+    K_U64,      /* unsigned integer in [min, max], stored in uint64_t */
+    K_REAL,     /* finite number in [min, max], stored x scale as double */
+    K_CHANNELS, /* power of two in [min, max], stored as points = 2 x value */
+    K_CHOICE,   /* one of choices[], stored as its index (unsigned) */
+    K_AUTO_U32, /* "auto" (stored as auto_value) or an integer in [min, max] */
+    K_MASK,     /* "auto" or an integer (0x... allowed) in [min, max] */
+    K_BOOL      /* true or false, stored as unsigned 0/1 */
+} key_kind;
+
+typedef struct key_def {
+    const char *section, *key;
+    key_kind kind;
+    size_t offset, size;
+    double min, max, scale;
+    const char *const *choices;
+    uint32_t auto_value;
+    const char *unit, *help;
+} key_def;
+
+static const char *const window_names[] = { "rectangular", "hann", "hamming", "blackman", "blackman-harris4", NULL };
+static const char *const rounding_names[] = { "truncate", "half-up", "half-even", NULL };
+static const char *const shape_names[] = { "sky", "white", NULL };
+
+#define OFF(m) offsetof(tl_scenario, m)
+#define SZ(m) sizeof(((tl_scenario *)0)->m)
+
+static const key_def keys[] = {
+    { "scenario", "name", K_NAME, OFF(name), SZ(name), 1, 63, 1, NULL, 0, "",
+      "Short name used in reports: letters, digits, '.', '_' or '-'." },
+    { "scenario", "description", K_TEXT, OFF(description), SZ(description), 0, TL_SCENARIO_TEXT_MAX - 1, 1, NULL, 0,
+      "", "One line describing the instrument and the observation." },
+    { "instrument", "sample_rate_mhz", K_REAL, OFF(sky.sample_rate_hz), 0, 1, 1000, 1e6, NULL, 0, "MHz",
+      "ADC sample rate; channel k is centred on k x rate / (2 x channels)." },
+    { "instrument", "adc_bits", K_U32, OFF(cfg.adc_bits), 0, 8, 16, 1, NULL, 0, "bits",
+      "ADC resolution; codes arrive left-aligned in 16-bit words." },
+    { "instrument", "adc_full_scale_v", K_REAL, OFF(adc_full_scale_v), 0, 0.001, 100, 1, NULL, 0, "V",
+      "Voltage at the ADC's positive full scale (converts firmware counts to volts^2)." },
+    { "instrument", "inputs", K_U32, OFF(cfg.inputs), 0, 1, 2, 1, NULL, 0, "",
+      "Antenna inputs; with 2 the firmware also forms the cross-power." },
+    { "instrument", "channels", K_CHANNELS, OFF(cfg.points), 0, 128, TL_MAX_CHANNELS, 1, NULL, 0, "",
+      "Frequency channels (a power of two); the real FFT has twice as many points." },
+    { "instrument", "taps", K_U32, OFF(cfg.taps), 0, 1, TL_MAX_TAPS, 1, NULL, 0, "",
+      "Polyphase filterbank taps per channel; 1 is a plain windowed FFT." },
+    { "instrument", "window", K_CHOICE, OFF(window), 0, 0, 0, 1, window_names, 0, "",
+      "Window weighting the prototype filter." },
+    { "instrument", "fft_scaling", K_MASK, OFF(cfg.fft_scale_mask), 0, 0, 65535, 1, NULL, TL_FFT_SCALE_AUTO, "",
+      "FFT scaling: bit b halves binary stage b, bit log2(channels) the split; auto halves every stage." },
+    { "instrument", "rounding", K_CHOICE, OFF(cfg.rounding), 0, 0, 0, 1, rounding_names, 0, "",
+      "Rounding at every rounding point; truncate biases the spectra." },
+    { "instrument", "detection_shift", K_AUTO_U32, OFF(cfg.det_shift), 0, 0, TL_MAX_DET_SHIFT, 1, NULL,
+      TL_DET_SHIFT_AUTO, "bits", "Right shift after |X|^2; auto = ceil(log2(spectra)), which cannot overflow." },
+    { "integration", "spectra", K_U32, OFF(spectra), 0, 1, TL_MAX_INTEGRATION, 1, NULL, 0, "spectra",
+      "Spectra integrated into one product (each lasts 2 x channels / sample rate)." },
+    { "sky", "seed", K_U64, OFF(sky.seed), 0, 0, 4294967295.0, 1, NULL, 0, "",
+      "Seed of the noise generator (the same seed gives the same voltages)." },
+    { "sky", "shape", K_CHOICE, OFF(sky.white), 0, 0, 0, 1, shape_names, 0, "",
+      "sky: power-law sky plus receiver through the bandpass; white: flat spectrum." },
+    { "sky", "rms_fraction", K_REAL, OFF(sky.rms_fs), 0, 0.0001, 1, 1, NULL, 0, "of full scale",
+      "Nominal RMS voltage at the ADC as a fraction of full scale." },
+    { "sky", "drive_db", K_REAL, OFF(drive_db), 0, -40, 12, 1, NULL, 0, "dB",
+      "Drive relative to rms_fraction (the fidelity tests use -20, 0 and +6)." },
+    { "sky", "sky_t0_k", K_REAL, OFF(sky.sky_t0_k), 0, 0, 1e8, 1, NULL, 0, "K",
+      "Sky brightness temperature at sky_f0_mhz." },
+    { "sky", "sky_f0_mhz", K_REAL, OFF(sky.sky_f0_hz), 0, 0.1, 10000, 1e6, NULL, 0, "MHz",
+      "Reference frequency of the sky power law." },
+    { "sky", "sky_index", K_REAL, OFF(sky.sky_index), 0, -1, 5, 1, NULL, 0, "",
+      "Spectral index: T = sky_t0_k x (f / sky_f0_mhz)^-sky_index." },
+    { "sky", "receiver_k", K_REAL, OFF(sky.receiver_k), 0, 0, 1e6, 1, NULL, 0, "K",
+      "Receiver noise temperature." },
+    { "sky", "highpass_mhz", K_REAL, OFF(sky.highpass_hz), 0, 0.001, 1000, 1e6, NULL, 0, "MHz",
+      "Corner of the front end's Butterworth high-pass." },
+    { "sky", "highpass_order", K_U32, OFF(sky.highpass_order), 0, 1, 16, 1, NULL, 0, "", "Order of the high-pass." },
+    { "sky", "lowpass_mhz", K_REAL, OFF(sky.lowpass_hz), 0, 0.001, 1000, 1e6, NULL, 0, "MHz",
+      "Corner of the anti-alias Butterworth low-pass." },
+    { "sky", "lowpass_order", K_U32, OFF(sky.lowpass_order), 0, 1, 16, 1, NULL, 0, "", "Order of the low-pass." },
+    { "sky", "coherence", K_REAL, OFF(sky.coherence), 0, 0, 1, 1, NULL, 0, "",
+      "Fraction of the noise common to both inputs (makes the cross-power non-zero)." },
+    { "fidelity", "band_low_mhz", K_REAL, OFF(band_lo_hz), 0, 0, 1000, 1e6, NULL, 0, "MHz",
+      "Lower edge of the science band where fidelity is measured." },
+    { "fidelity", "band_high_mhz", K_REAL, OFF(band_hi_hz), 0, 0, 1000, 1e6, NULL, 0, "MHz",
+      "Upper edge of the science band (at most half the sample rate)." },
+    { "fidelity", "blocks", K_U32, OFF(blocks), 0, 8, 1024, 1, NULL, 0, "",
+      "Blocks the spectra are split into to estimate standard errors (must divide spectra)." },
+    { "fidelity", "extrapolate_to", K_U32, OFF(flight_spectra), 0, 0, TL_MAX_INTEGRATION, 1, NULL, 0, "spectra",
+      "Integration length to extrapolate the fidelity margin to; 0 for none." },
+    { "output", "folder", K_TEXT, OFF(folder), SZ(folder), 1, TL_SCENARIO_PATH_MAX - 1, 1, NULL, 0, "",
+      "Folder for the outputs (created if missing; -o overrides)." },
+    { "output", "csv", K_BOOL, OFF(write_csv), 0, 0, 1, 1, NULL, 0, "", "Write the spectra as CSV." },
+    { "output", "npy", K_BOOL, OFF(write_npy), 0, 0, 1, 1, NULL, 0, "", "Write the spectra as NumPy .npy." },
+};
+#define NKEYS (sizeof keys / sizeof keys[0])
+
+static const char *const sections[] = { "scenario", "instrument", "integration", "sky", "fidelity", "output" };
+#define NSECTIONS (sizeof sections / sizeof sections[0])
 
 void tl_scenario_default(tl_scenario *s)
 {
     memset(s, 0, sizeof *s);
-    s->name = "hushfield-nominal";
-    s->description = "Hushfield lander (invented), HLS-1 low-band spectrometer: two crossed dipoles, "
-                     "14-bit ADCs at 102.4 Msample/s, 4096 channels of 12.5 kHz, 4-tap Hann PFB";
+    snprintf(s->name, sizeof s->name, "hushfield-nominal");
+    snprintf(s->description, sizeof s->description,
+             "Hushfield lander (invented), HLS-1 low-band spectrometer: two crossed dipoles, 14-bit ADCs");
     tl_config_default(&s->cfg);
     s->cfg.integration = 4096u;
-    s->window = 1u; /* Hann, as the built-in table */
+    s->window = TL_WINDOW_HANN; /* as the built-in table */
+    s->adc_full_scale_v = 1.0;
     tl_sky_default(&s->sky);
     s->drive_db = 0.0;
     s->spectra = 4096u;
@@ -20,6 +130,9 @@ void tl_scenario_default(tl_scenario *s)
     s->flight_spectra = 1u << 24;
     s->band_lo_hz = 10e6;
     s->band_hi_hz = 40e6;
+    snprintf(s->folder, sizeof s->folder, "out");
+    s->write_csv = 1;
+    s->write_npy = 1;
 }
 
 double tl_scenario_channel_hz(const tl_scenario *s)
@@ -30,8 +143,452 @@ double tl_scenario_channel_hz(const tl_scenario *s)
 void tl_scenario_band(const tl_scenario *s, uint32_t *lo, uint32_t *hi)
 {
     const double df = tl_scenario_channel_hz(s);
-    *lo = (uint32_t)ceil(s->band_lo_hz / df);
-    *hi = (uint32_t)floor(s->band_hi_hz / df);
+    *lo = (uint32_t)ceil(s->band_lo_hz / df - 1e-9);
+    *hi = (uint32_t)floor(s->band_hi_hz / df + 1e-9);
     if (*hi > s->cfg.points / 2u)
         *hi = s->cfg.points / 2u;
+}
+
+/* ---- values: formatting ------------------------------------------------ */
+
+static void *field(const tl_scenario *s, const key_def *k)
+{
+    return (char *)s + k->offset;
+}
+
+static void format_value(const tl_scenario *s, const key_def *k, char *out, size_t cap)
+{
+    const void *p = field(s, k);
+    switch (k->kind) {
+    case K_TEXT:
+    case K_NAME:
+        snprintf(out, cap, "%s", (const char *)p);
+        break;
+    case K_U32:
+        snprintf(out, cap, "%u", *(const uint32_t *)p);
+        break;
+    case K_U64:
+        snprintf(out, cap, "%llu", (unsigned long long)*(const uint64_t *)p);
+        break;
+    case K_REAL:
+        snprintf(out, cap, "%.10g", *(const double *)p / k->scale);
+        break;
+    case K_CHANNELS:
+        snprintf(out, cap, "%u", *(const uint32_t *)p / 2u);
+        break;
+    case K_CHOICE: {
+        const unsigned v = *(const unsigned *)p;
+        unsigned n = 0;
+        while (k->choices[n] != NULL)
+            n++;
+        snprintf(out, cap, "%s", v < n ? k->choices[v] : "?");
+        break;
+    }
+    case K_AUTO_U32:
+    case K_MASK: {
+        const uint32_t v = *(const uint32_t *)p;
+        if (v == k->auto_value)
+            snprintf(out, cap, "auto");
+        else
+            snprintf(out, cap, k->kind == K_MASK ? "0x%X" : "%u", v);
+        break;
+    }
+    case K_BOOL:
+        snprintf(out, cap, "%s", *(const unsigned *)p ? "true" : "false");
+        break;
+    }
+}
+
+static void format_range(const key_def *k, char *out, size_t cap)
+{
+    switch (k->kind) {
+    case K_TEXT:
+        snprintf(out, cap, "text of %.0f to %.0f characters", k->min, k->max);
+        break;
+    case K_NAME:
+        snprintf(out, cap, "1 to 63 of letters, digits, '.', '_', '-'");
+        break;
+    case K_CHANNELS:
+        snprintf(out, cap, "a power of two from %.0f to %.0f", k->min, k->max);
+        break;
+    case K_CHOICE: {
+        size_t used = (size_t)snprintf(out, cap, "one of ");
+        for (unsigned i = 0; k->choices[i] != NULL && used < cap; i++)
+            used += (size_t)snprintf(out + used, cap - used, "%s%s", i ? ", " : "", k->choices[i]);
+        break;
+    }
+    case K_AUTO_U32:
+        snprintf(out, cap, "auto, or an integer from %.0f to %.0f", k->min, k->max);
+        break;
+    case K_MASK:
+        snprintf(out, cap, "auto, or a mask from 0 to 2^(log2(channels)+1) - 1 (decimal or 0x hex)");
+        break;
+    case K_BOOL:
+        snprintf(out, cap, "true or false");
+        break;
+    case K_U32:
+    case K_U64:
+        snprintf(out, cap, "an integer from %.0f to %.0f", k->min, k->max);
+        break;
+    case K_REAL:
+        snprintf(out, cap, "a number from %g to %g", k->min, k->max);
+        break;
+    }
+}
+
+/* ---- values: parsing ----------------------------------------------------- */
+
+static int parse_uint(const char *v, int base, unsigned long long *out)
+{
+    if (*v == '\0' || *v == '-' || *v == '+' || isspace((unsigned char)*v))
+        return -1;
+    char *end = NULL;
+    errno = 0;
+    const unsigned long long x = strtoull(v, &end, base);
+    if (errno != 0 || end == v || *end != '\0')
+        return -1;
+    *out = x;
+    return 0;
+}
+
+/* Set key k from text v. Returns 0, or -1 with the reason in why. */
+static int set_value(tl_scenario *s, const key_def *k, const char *v, char *why, size_t cap)
+{
+    void *p = field(s, k);
+    char range[200];
+    format_range(k, range, sizeof range);
+    switch (k->kind) {
+    case K_TEXT:
+    case K_NAME: {
+        const size_t n = strlen(v);
+        if (n < (size_t)k->min || n > (size_t)k->max) {
+            snprintf(why, cap, "must be %s", range);
+            return -1;
+        }
+        if (k->kind == K_NAME)
+            for (size_t i = 0; i < n; i++)
+                if (!isalnum((unsigned char)v[i]) && v[i] != '.' && v[i] != '_' && v[i] != '-') {
+                    snprintf(why, cap, "must be %s", range);
+                    return -1;
+                }
+        memcpy(p, v, n + 1u);
+        return 0;
+    }
+    case K_U32:
+    case K_U64:
+    case K_CHANNELS:
+    case K_AUTO_U32:
+    case K_MASK: {
+        if ((k->kind == K_AUTO_U32 || k->kind == K_MASK) && strcmp(v, "auto") == 0) {
+            *(uint32_t *)p = k->auto_value;
+            return 0;
+        }
+        unsigned long long x = 0;
+        if (parse_uint(v, k->kind == K_MASK ? 0 : 10, &x) != 0 || (double)x < k->min || (double)x > k->max ||
+            (k->kind == K_CHANNELS && (x & (x - 1u)) != 0u)) {
+            snprintf(why, cap, "must be %s", range);
+            return -1;
+        }
+        if (k->kind == K_U64)
+            *(uint64_t *)p = x;
+        else if (k->kind == K_CHANNELS)
+            *(uint32_t *)p = (uint32_t)(2u * x);
+        else
+            *(uint32_t *)p = (uint32_t)x;
+        return 0;
+    }
+    case K_REAL: {
+        char *end = NULL;
+        errno = 0;
+        const double x = strtod(v, &end);
+        if (*v == '\0' || errno != 0 || end == v || *end != '\0' || !isfinite(x) || x < k->min || x > k->max) {
+            snprintf(why, cap, "must be %s%s%s", range, *k->unit ? " " : "", k->unit);
+            return -1;
+        }
+        *(double *)p = x * k->scale;
+        return 0;
+    }
+    case K_CHOICE:
+        for (unsigned i = 0; k->choices[i] != NULL; i++)
+            if (strcmp(v, k->choices[i]) == 0) {
+                *(unsigned *)p = i;
+                return 0;
+            }
+        snprintf(why, cap, "must be %s", range);
+        return -1;
+    case K_BOOL:
+        if (strcmp(v, "true") == 0 || strcmp(v, "false") == 0) {
+            *(unsigned *)p = v[0] == 't';
+            return 0;
+        }
+        snprintf(why, cap, "must be %s", range);
+        return -1;
+    }
+    return -1;
+}
+
+/* ---- parsing with inih ---------------------------------------------------- */
+
+typedef struct parse_ctx {
+    tl_scenario *s;
+    FILE *f;
+    const char *path;
+    int line;               /* line the reader handed to inih last */
+    int key_line[NKEYS];    /* where each key was given, 0 = default */
+    int failed;             /* an error is in err */
+    char *err;
+    size_t cap;
+} parse_ctx;
+
+static int fail_at(parse_ctx *c, const char *fmt, ...)
+{
+    if (c->failed)
+        return 0;
+    c->failed = 1;
+    int used = snprintf(c->err, c->cap, "%s:%d: ", c->path, c->line);
+    if (used < 0 || (size_t)used >= c->cap)
+        return 0;
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(c->err + used, c->cap - (size_t)used, fmt, ap);
+    va_end(ap);
+    return 0;
+}
+
+static int known_section(const char *name)
+{
+    for (size_t i = 0; i < NSECTIONS; i++)
+        if (strcmp(name, sections[i]) == 0)
+            return 1;
+    return 0;
+}
+
+static void section_list(char *out, size_t cap)
+{
+    size_t used = 0;
+    for (size_t i = 0; i < NSECTIONS && used < cap; i++)
+        used += (size_t)snprintf(out + used, cap - used, "%s%s", i ? ", " : "", sections[i]);
+}
+
+static void key_list(const char *section, char *out, size_t cap)
+{
+    size_t used = 0;
+    out[0] = '\0';
+    for (size_t i = 0; i < NKEYS && used < cap; i++)
+        if (strcmp(keys[i].section, section) == 0)
+            used += (size_t)snprintf(out + used, cap - used, "%s%s", used ? ", " : "", keys[i].key);
+}
+
+/* inih reader: one line at a time, so the handler knows the line number;
+ * also rejects what inih would silently accept or mangle. */
+static char *reader(char *str, int num, void *stream)
+{
+    parse_ctx *c = stream;
+    if (c->failed || fgets(str, num, c->f) == NULL)
+        return NULL;
+    c->line++;
+    const size_t n = strlen(str);
+    if (n > 0 && str[n - 1] != '\n' && !feof(c->f)) {
+        fail_at(c, "line longer than %d characters", num - 1);
+        return NULL;
+    }
+    const char *t = str;
+    if (c->line == 1 && (unsigned char)t[0] == 0xEF && (unsigned char)t[1] == 0xBB && (unsigned char)t[2] == 0xBF)
+        t += 3; /* UTF-8 byte order mark */
+    if ((*t == ' ' || *t == '\t') && t[strspn(t, " \t\r\n")] != '\0' && t[strspn(t, " \t")] != '#' &&
+        t[strspn(t, " \t")] != ';') {
+        fail_at(c, "indented line: continuation lines are not allowed (start every key at the first column)");
+        return NULL;
+    }
+    t += strspn(t, " \t");
+    if (*t == '[') {
+        const char *end = strchr(t, ']');
+        char name[64];
+        const size_t len = end ? (size_t)(end - t - 1) : 0;
+        if (end != NULL && len < sizeof name) {
+            memcpy(name, t + 1, len);
+            name[len] = '\0';
+            if (!known_section(name)) {
+                char list[200];
+                section_list(list, sizeof list);
+                fail_at(c, "[%s]: unknown section (sections: %s)", name, list);
+                return NULL;
+            }
+        }
+    }
+    return str;
+}
+
+static int handler(void *user, const char *section, const char *name, const char *value)
+{
+    parse_ctx *c = user;
+    if (c->failed)
+        return 0;
+    for (size_t i = 0; i < NKEYS; i++) {
+        if (strcmp(keys[i].section, section) != 0 || strcmp(keys[i].key, name) != 0)
+            continue;
+        if (c->key_line[i] != 0)
+            return fail_at(c, "[%s] %s: given twice (first on line %d)", section, name, c->key_line[i]);
+        char why[300];
+        if (set_value(c->s, &keys[i], value, why, sizeof why) != 0)
+            return fail_at(c, "[%s] %s = '%s': %s", section, name, value, why);
+        c->key_line[i] = c->line;
+        return 1;
+    }
+    if (section[0] == '\0')
+        return fail_at(c, "%s: key outside any section (sections: scenario, instrument, integration, sky, fidelity, "
+                          "output)",
+                       name);
+    char list[600];
+    key_list(section, list, sizeof list);
+    return fail_at(c, "[%s] %s: unknown key (keys of [%s]: %s)", section, name, section, list);
+}
+
+/* ---- relations between keys ------------------------------------------------ */
+
+static const key_def *key_by_name(const char *section, const char *name, size_t *index)
+{
+    for (size_t i = 0; i < NKEYS; i++)
+        if (strcmp(keys[i].section, section) == 0 && strcmp(keys[i].key, name) == 0) {
+            *index = i;
+            return &keys[i];
+        }
+    return NULL;
+}
+
+/* One-line error about key (section, name), with its line when known. */
+static int fail_key(const tl_scenario *s, const char *path, const int *lines, const char *section, const char *name,
+                    char *err, size_t cap, const char *fmt, ...)
+{
+    size_t i = 0;
+    const key_def *k = key_by_name(section, name, &i);
+    char val[200] = "?";
+    if (k != NULL)
+        format_value(s, k, val, sizeof val);
+    const int line = (lines != NULL && k != NULL) ? lines[i] : 0;
+    int used;
+    if (line > 0)
+        used = snprintf(err, cap, "%s:%d: [%s] %s = '%s': ", path, line, section, name, val);
+    else
+        used = snprintf(err, cap, "%s: [%s] %s = '%s' (default): ", path, section, name, val);
+    if (used >= 0 && (size_t)used < cap) {
+        va_list ap;
+        va_start(ap, fmt);
+        vsnprintf(err + used, cap - (size_t)used, fmt, ap);
+        va_end(ap);
+    }
+    return -1;
+}
+
+static int check_relations(const tl_scenario *s, const char *path, const int *lines, char *err, size_t cap)
+{
+    const double nyq_mhz = s->sky.sample_rate_hz / 2e6;
+    const uint32_t channels = s->cfg.points / 2u;
+    uint32_t m = 0;
+    while ((1u << m) < channels)
+        m++;
+    if (s->cfg.fft_scale_mask != TL_FFT_SCALE_AUTO && (s->cfg.fft_scale_mask >> (m + 1u)) != 0u)
+        return fail_key(s, path, lines, "instrument", "fft_scaling", err, cap,
+                        "must be auto or at most 0x%X for %u channels (one bit per binary stage plus the split)",
+                        (1u << (m + 1u)) - 1u, channels);
+    if (s->sky.lowpass_hz <= s->sky.highpass_hz)
+        return fail_key(s, path, lines, "sky", "lowpass_mhz", err, cap, "must be above highpass_mhz = %g MHz",
+                        s->sky.highpass_hz / 1e6);
+    if (s->band_hi_hz / 1e6 > nyq_mhz + 1e-9)
+        return fail_key(s, path, lines, "fidelity", "band_high_mhz", err, cap,
+                        "must be at most half the sample rate, %g MHz", nyq_mhz);
+    if (s->band_lo_hz >= s->band_hi_hz)
+        return fail_key(s, path, lines, "fidelity", "band_low_mhz", err, cap, "must be below band_high_mhz = %g MHz",
+                        s->band_hi_hz / 1e6);
+    uint32_t lo, hi;
+    tl_scenario_band(s, &lo, &hi);
+    if (hi < lo + 16u)
+        return fail_key(s, path, lines, "fidelity", "band_high_mhz", err, cap,
+                        "the band must span at least 16 channels of %g kHz (it spans %d)",
+                        tl_scenario_channel_hz(s) / 1e3, (int)hi - (int)lo);
+    if (s->spectra < s->blocks || s->spectra % s->blocks != 0u)
+        return fail_key(s, path, lines, "integration", "spectra", err, cap,
+                        "must be a multiple of [fidelity] blocks = %u", s->blocks);
+    if (s->flight_spectra != 0u && s->flight_spectra < s->spectra)
+        return fail_key(s, path, lines, "fidelity", "extrapolate_to", err, cap,
+                        "must be 0 or at least [integration] spectra = %u", s->spectra);
+    return 0;
+}
+
+int tl_scenario_check(const tl_scenario *s, const char *path, char *err, size_t cap)
+{
+    if (path == NULL)
+        path = "scenario";
+    /* each key's own range (a struct built in code may hold anything) */
+    for (size_t i = 0; i < NKEYS; i++) {
+        char val[200], why[300];
+        format_value(s, &keys[i], val, sizeof val);
+        tl_scenario copy = *s;
+        if (set_value(&copy, &keys[i], val, why, sizeof why) != 0)
+            return fail_key(s, path, NULL, keys[i].section, keys[i].key, err, cap, "%s", why);
+    }
+    return check_relations(s, path, NULL, err, cap);
+}
+
+int tl_scenario_load(const char *path, tl_scenario *s, char *err, size_t cap)
+{
+    parse_ctx c;
+    memset(&c, 0, sizeof c);
+    c.s = s;
+    c.path = path;
+    c.err = err;
+    c.cap = cap;
+    c.f = fopen(path, "r");
+    if (c.f == NULL) {
+        snprintf(err, cap, "%s: cannot open: %s", path, strerror(errno));
+        return -1;
+    }
+    const int rc = ini_parse_stream(reader, &c, handler, &c);
+    const int read_error = ferror(c.f);
+    fclose(c.f);
+    if (c.failed)
+        return -1;
+    if (read_error) {
+        snprintf(err, cap, "%s: read error", path);
+        return -1;
+    }
+    if (rc > 0) {
+        snprintf(err, cap, "%s:%d: expected 'key = value', '[section]' or a '#' comment", path, rc);
+        return -1;
+    }
+    if (rc < 0) {
+        snprintf(err, cap, "%s: cannot parse (out of memory)", path);
+        return -1;
+    }
+    return check_relations(s, path, c.key_line, err, cap);
+}
+
+/* ---- writing ---------------------------------------------------------------- */
+
+int tl_scenario_write(FILE *out, const tl_scenario *s)
+{
+    tl_scenario def;
+    tl_scenario_default(&def);
+    fprintf(out, "# tidelock scenario file (INI).\n"
+                 "# Every key is optional: a missing key takes the default shown in its comment.\n"
+                 "# Comments start with '#'. Do not indent lines; at most 199 characters per line.\n"
+                 "# Unknown sections and keys are errors, so a typo never falls back to a default.\n");
+    const char *current = "";
+    for (size_t i = 0; i < NKEYS; i++) {
+        const key_def *k = &keys[i];
+        if (strcmp(k->section, current) != 0) {
+            fprintf(out, "\n[%s]\n", k->section);
+            current = k->section;
+        }
+        char val[200], dval[200], range[200];
+        format_value(s, k, val, sizeof val);
+        format_value(&def, k, dval, sizeof dval);
+        format_range(k, range, sizeof range);
+        if (k->kind == K_TEXT) /* the default text is the value of the default file */
+            fprintf(out, "# %s\n#   %s\n%s = %s\n", k->help, range, k->key, val);
+        else
+            fprintf(out, "# %s\n#   %s%s%s; default %s\n%s = %s\n", k->help, range, *k->unit ? " " : "", k->unit,
+                    dval, k->key, val);
+    }
+    return ferror(out) ? -1 : 0;
 }

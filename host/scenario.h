@@ -1,31 +1,64 @@
 /*
  * scenario.h - an instrument and an observation, described once.
  *
- * The built-in default is a demo scenario of our own: the "Hushfield" far-side
- * lander carrying the HLS-1 low-band spectrometer (both invented). Scenario
- * files come later; until then every command uses tl_scenario_default.
+ * A scenario file is INI (parsed with Debian's inih), one section per
+ * concern: [scenario], [instrument], [integration], [sky], [fidelity],
+ * [output]. Every key is optional (the built-in default fills it in), every
+ * given key is checked for type and range, and unknown sections or keys,
+ * repeated keys, indented continuation lines and lines longer than 199
+ * characters are errors. Errors are one line:
+ *     FILE:LINE: [section] key = 'value': must be ... (unit)
+ *
+ * The built-in default is a demo scenario of our own: the "Hushfield"
+ * far-side lander carrying the HLS-1 low-band spectrometer (both invented).
+ * `tidelock scenario --print` writes it with every key commented, and
+ * docs/scenario-default.ini is that output (tests/test_scenario.c compares).
  */
 #ifndef TL_HOST_SCENARIO_H
 #define TL_HOST_SCENARIO_H
 
+#include <stddef.h>
 #include <stdint.h>
+#include <stdio.h>
 #include "sky_noise.h"
 #include "tl_chain.h"
 
+#define TL_SCENARIO_NAME_MAX 64
+#define TL_SCENARIO_TEXT_MAX 160
+#define TL_SCENARIO_PATH_MAX 256
+
 typedef struct tl_scenario {
-    const char *name;
-    const char *description;
-    tl_config cfg;            /* firmware configuration */
-    unsigned window;          /* of the coefficient table (tl_window) */
-    tl_sky_params sky;        /* voltages at the ADC */
-    double drive_db;          /* RMS relative to the nominal sky.rms_fs, dB */
-    uint32_t spectra;         /* spectra measured (M) */
+    char name[TL_SCENARIO_NAME_MAX];
+    char description[TL_SCENARIO_TEXT_MAX];
+    tl_config cfg;            /* firmware configuration (points = 2 x channels) */
+    unsigned window;          /* tl_window of the coefficient table */
+    double adc_full_scale_v;  /* volts at the ADC's positive full scale */
+    tl_sky_params sky;        /* voltages at the ADC; sky.sample_rate_hz is the ADC rate */
+    double drive_db;          /* RMS relative to sky.rms_fs, dB */
+    uint32_t spectra;         /* spectra per integration (M) */
     uint32_t blocks;          /* blocks for the standard errors (J) */
-    uint32_t flight_spectra;  /* integration length to extrapolate to (M') */
+    uint32_t flight_spectra;  /* integration length to extrapolate to (M'), 0 = none */
     double band_lo_hz, band_hi_hz; /* science band */
+    char folder[TL_SCENARIO_PATH_MAX]; /* output folder */
+    unsigned write_csv, write_npy;
 } tl_scenario;
 
+/* The built-in default. */
 void tl_scenario_default(tl_scenario *s);
+
+/* Read FILE over the defaults in *s (call tl_scenario_default first).
+ * Returns 0, or -1 with one line in err (cap bytes): file, line, section,
+ * key, value and the allowed range. *s may be partly updated on error. */
+int tl_scenario_load(const char *path, tl_scenario *s, char *err, size_t cap);
+
+/* Check the whole scenario (ranges and the relations between keys).
+ * `path` names the file in messages (NULL: "scenario"). Returns 0 or -1
+ * with one line in err. tl_scenario_load calls it. */
+int tl_scenario_check(const tl_scenario *s, const char *path, char *err, size_t cap);
+
+/* Write s as a scenario file, every key with its unit, range and default
+ * in a comment. Returns 0, or -1 on a write error. */
+int tl_scenario_write(FILE *out, const tl_scenario *s);
 
 /* Channel index range [lo, hi) of the science band. */
 void tl_scenario_band(const tl_scenario *s, uint32_t *lo, uint32_t *hi);

@@ -30,7 +30,7 @@ typedef struct tl_sky_params {
     unsigned highpass_order;
     double lowpass_hz;
     unsigned lowpass_order;
-    int white;          /* 1: skip shaping (flat spectrum) */
+    unsigned white;     /* 1: skip shaping (flat spectrum) */
     double coherence;   /* 0 .. 1 */
     double rms_fs;      /* RMS voltage / ADC full scale (full scale = 2^(bits-1) codes) */
     unsigned adc_bits;  /* 8 .. 16 */

@@ -1,103 +1,369 @@
-/* tidelock_main.c - the `tidelock` command line. */
+/* tidelock_main.c - the `tidelock` command line.
+ *
+ * Exit status, for every command: 0 success; 1 failure (a bad scenario file,
+ * an I/O error, a fidelity verdict of FAIL); 2 usage (bad command line). */
 #include <errno.h>
+#include <getopt.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
+#include <unistd.h>
+
+#include "atomic_file.h"
 #include "report.h"
 #include "run.h"
 #include "scenario.h"
+#include "spectra_out.h"
 #include "tables_gen.h"
+#include "taps_design.h"
+#include "tl_fft.h"
+#include "version.h"
 
-static void usage(FILE *out)
+
+
+enum { EXIT_OK = 0, EXIT_FAIL = 1, EXIT_USAGE = 2 };
+
+static const char *const main_help =
+    "usage: tidelock COMMAND [options]\n"
+    "       tidelock --version | --help\n"
+    "\n"
+    "Verify a spectrometer's fixed-point firmware against a floating-point reference.\n"
+    "\n"
+    "commands:\n"
+    "  run       run a scenario: firmware chain, FFTW reference, fidelity figures, outputs\n"
+    "  scenario  print the default scenario file, or check one\n"
+    "  tables    write a filterbank coefficient table image, or the committed table sources\n"
+    "  help      help on a command (tidelock help run)\n"
+    "\n"
+    "exit status: 0 success, 1 failure (bad scenario file, I/O error, fidelity FAIL), 2 usage\n"
+    "example: tidelock scenario --print > my.ini && tidelock run my.ini -o out\n";
+
+static const char *const run_help =
+    "usage: tidelock run [SCENARIO.ini] [-o DIR] [--drive DB] [-q]\n"
+    "\n"
+    "Run a scenario (the built-in default when no file is given): feed its ADC voltages to\n"
+    "the firmware chain and to the FFTW double reference, print the fidelity figures, and\n"
+    "write DIR/summary.json, DIR/scenario.ini (as resolved), and the integrated spectra as\n"
+    "CSV and .npy. Every file is written whole or not at all.\n"
+    "\n"
+    "options:\n"
+    "  -o, --output DIR   output folder (default: the scenario's [output] folder)\n"
+    "      --drive DB     override [sky] drive_db, from -40 to 12 dB\n"
+    "  -q, --quiet        print nothing but errors; the exit status tells the verdict\n"
+    "  -h, --help         this text\n"
+    "exit status: 0 PASS, 1 FAIL or error, 2 usage\n"
+    "example: tidelock run docs/scenario-default.ini -o out --drive -20\n";
+
+static const char *const scenario_help =
+    "usage: tidelock scenario --print\n"
+    "       tidelock scenario --check SCENARIO.ini [-q]\n"
+    "\n"
+    "--print writes the built-in default scenario, every key commented with its unit,\n"
+    "range and default, to standard output: a file to start from. --check reads a\n"
+    "scenario and prints it as resolved (defaults filled in), or one error line.\n"
+    "\n"
+    "options:\n"
+    "  -p, --print        write the default scenario\n"
+    "  -c, --check FILE   check FILE and print it resolved\n"
+    "  -q, --quiet        with --check, print nothing on success\n"
+    "  -h, --help         this text\n"
+    "example: tidelock scenario --print > my.ini && tidelock scenario --check my.ini\n";
+
+static const char *const tables_help =
+    "usage: tidelock tables [SCENARIO.ini] -o FILE\n"
+    "       tidelock tables --twiddle-source FILE | --taps-source FILE\n"
+    "\n"
+    "Write the filterbank coefficient table image the firmware loads (window, taps and\n"
+    "channels from the scenario; header and CRC-32C as in firmware/tl_taps.h), or the C\n"
+    "sources of the committed firmware tables.\n"
+    "\n"
+    "options:\n"
+    "  -o, --output FILE        the table image\n"
+    "      --twiddle-source FILE  firmware/tl_twiddle_table.c\n"
+    "      --taps-source FILE     firmware/tl_taps_default.c\n"
+    "  -h, --help               this text\n"
+    "example: tidelock tables my.ini -o taps.bin\n";
+
+/* One-line usage error. */
+static int usage_error(const char *cmd, const char *fmt, const char *arg)
 {
-    fprintf(out, "usage: tidelock COMMAND [options]\n"
-                 "commands:\n"
-                 "  run [-o DIR] [--drive DB]     run the built-in scenario; print the summary and write DIR/summary.json\n"
-                 "  tables twiddle-source FILE    write the firmware twiddle table source\n"
-                 "  tables taps-source FILE       write the firmware default coefficient table source\n"
-                 "  help                          this text\n");
+    fprintf(stderr, "tidelock %s: ", cmd);
+    fprintf(stderr, fmt, arg);
+    fprintf(stderr, " (see tidelock %s --help)\n", cmd);
+    return EXIT_USAGE;
+}
+
+/* getopt's own complaint, as one line of ours. */
+static int bad_option(const char *cmd, char **argv, int c)
+{
+    if (c == ':')
+        return usage_error(cmd, "%s needs a value", argv[optind - 1]);
+    return usage_error(cmd, "unknown option '%s'", argv[optind - 1]);
+}
+
+/* ---- run ------------------------------------------------------------------- */
+
+typedef struct progress_bar {
+    int on;
+} progress_bar;
+
+static void show_progress(void *ctx, uint32_t done, uint32_t total)
+{
+    const progress_bar *pb = ctx;
+    if (!pb->on)
+        return;
+    const int width = 30, filled = (int)((uint64_t)width * done / total);
+    fprintf(stderr, "\r  [%.*s%*s] %3u%%  block %u of %u", filled, "##############################", width - filled,
+            "", (unsigned)(100u * done / total), done, total);
+    if (done == total)
+        fprintf(stderr, "\r%*s\r", width + 40, "");
+    fflush(stderr);
+}
+
+typedef struct scenario_out {
+    const tl_scenario *s;
+} scenario_out;
+
+static int write_scenario_file(FILE *f, void *ctx)
+{
+    return tl_scenario_write(f, ((const scenario_out *)ctx)->s);
 }
 
 static int cmd_run(int argc, char **argv)
 {
-    const char *dir = "out";
-    tl_scenario s;
-    tl_scenario_default(&s);
-    for (int i = 0; i < argc; i++) {
-        if (strcmp(argv[i], "-o") == 0 && i + 1 < argc) {
-            dir = argv[++i];
-        } else if (strcmp(argv[i], "--drive") == 0 && i + 1 < argc) {
-            char *end = NULL;
-            const double v = strtod(argv[++i], &end);
-            if (end == argv[i] || *end != '\0' || !(v >= -40.0 && v <= 12.0)) {
-                fprintf(stderr, "tidelock run: --drive: '%s' is not a number of dB from -40 to 12\n", argv[i]);
-                return 2;
-            }
-            s.drive_db = v;
-        } else if (strcmp(argv[i], "-o") == 0 || strcmp(argv[i], "--drive") == 0) {
-            fprintf(stderr, "tidelock run: %s needs a value (-o DIR, --drive DB from -40 to 12)\n", argv[i]);
-            return 2;
-        } else {
-            fprintf(stderr, "tidelock run: unknown option '%s' (allowed: -o DIR, --drive DB)\n", argv[i]);
-            return 2;
+    static const struct option opts[] = { { "output", required_argument, NULL, 'o' },
+                                          { "drive", required_argument, NULL, 'd' },
+                                          { "quiet", no_argument, NULL, 'q' },
+                                          { "help", no_argument, NULL, 'h' },
+                                          { NULL, 0, NULL, 0 } };
+    const char *dir = NULL, *drive = NULL;
+    int quiet = 0, c;
+    opterr = 0;
+    while ((c = getopt_long(argc, argv, ":o:qh", opts, NULL)) != -1) {
+        switch (c) {
+        case 'o': dir = optarg; break;
+        case 'd': drive = optarg; break;
+        case 'q': quiet = 1; break;
+        case 'h': fputs(run_help, stdout); return EXIT_OK;
+        default: return bad_option("run", argv, c);
         }
     }
+    if (argc - optind > 1)
+        return usage_error("run", "expected at most one scenario file, got also '%s'", argv[optind + 1]);
+    tl_scenario s;
+    tl_scenario_default(&s);
+    char err[1024];
+    if (optind < argc && tl_scenario_load(argv[optind], &s, err, sizeof err) != 0) {
+        fprintf(stderr, "tidelock run: %s\n", err);
+        return EXIT_FAIL;
+    }
+    if (drive != NULL) {
+        char *end = NULL;
+        const double v = strtod(drive, &end);
+        if (end == drive || *end != '\0' || !(v >= -40.0 && v <= 12.0))
+            return usage_error("run", "--drive: '%s' is not a number of dB from -40 to 12", drive);
+        s.drive_db = v;
+    }
+    if (dir == NULL)
+        dir = s.folder;
     if (mkdir(dir, 0777) != 0 && errno != EEXIST) {
         fprintf(stderr, "tidelock run: %s: cannot create output folder: %s\n", dir, strerror(errno));
-        return 1;
+        return EXIT_FAIL;
+    }
+    struct stat st;
+    if (stat(dir, &st) != 0 || !S_ISDIR(st.st_mode)) {
+        fprintf(stderr, "tidelock run: %s: not a folder\n", dir);
+        return EXIT_FAIL;
     }
     tl_run_result *r = malloc(sizeof *r);
     if (r == NULL) {
         fprintf(stderr, "tidelock run: out of memory\n");
-        return 1;
+        return EXIT_FAIL;
     }
-    const tl_status st = tl_run_scenario(&s, r);
-    if (st != TL_OK) {
-        fprintf(stderr, "tidelock run: scenario %s: %s (%s)\n", s.name, tl_status_text(st), tl_status_name(st));
+    progress_bar pb = { !quiet && isatty(STDERR_FILENO) };
+    const tl_status rs = tl_run_scenario(&s, r, show_progress, &pb);
+    if (rs != TL_OK) {
+        fprintf(stderr, "tidelock run: scenario %s: %s (%s)\n", s.name, tl_status_text(rs), tl_status_name(rs));
         free(r);
-        return 1;
+        return EXIT_FAIL;
     }
-    tl_report_print(stdout, &s, r);
-    char path[4096], err[4400];
+    if (!quiet)
+        tl_report_print(stdout, &s, r);
+    char path[4400];
+    int rc = EXIT_OK;
     snprintf(path, sizeof path, "%s/summary.json", dir);
-    if (tl_report_write_json(path, &s, r, err, sizeof err) != 0) {
+    if (tl_report_write_json(path, &s, r, err, sizeof err) != 0)
+        rc = EXIT_FAIL;
+    scenario_out so = { &s };
+    snprintf(path, sizeof path, "%s/scenario.ini", dir);
+    if (rc == EXIT_OK && tl_atomic_write(path, write_scenario_file, &so, err, sizeof err) != 0)
+        rc = EXIT_FAIL;
+    if (rc == EXIT_OK &&
+        tl_spectra_write(dir, &r->fid.product, s.sky.sample_rate_hz, (int)s.write_csv, (int)s.write_npy, err,
+                         sizeof err) != 0)
+        rc = EXIT_FAIL;
+    if (rc != EXIT_OK) {
         fprintf(stderr, "tidelock run: %s\n", err);
         free(r);
-        return 1;
+        return rc;
     }
-    printf("wrote %s\n", path);
+    if (!quiet)
+        printf("wrote %s/: summary.json, scenario.ini%s%s\n", dir, s.write_csv ? ", spectra as CSV" : "",
+               s.write_npy ? ", spectra as .npy" : "");
     const int fails = tl_fidelity_verdict(&r->fid, NULL, 0);
     free(r);
-    return fails ? 3 : 0;
+    return fails ? EXIT_FAIL : EXIT_OK;
+}
+
+/* ---- scenario ------------------------------------------------------------ */
+
+static int cmd_scenario(int argc, char **argv)
+{
+    static const struct option opts[] = { { "print", no_argument, NULL, 'p' },
+                                          { "check", required_argument, NULL, 'c' },
+                                          { "quiet", no_argument, NULL, 'q' },
+                                          { "help", no_argument, NULL, 'h' },
+                                          { NULL, 0, NULL, 0 } };
+    int print = 0, quiet = 0, c;
+    const char *check = NULL;
+    opterr = 0;
+    while ((c = getopt_long(argc, argv, ":pc:qh", opts, NULL)) != -1) {
+        switch (c) {
+        case 'p': print = 1; break;
+        case 'c': check = optarg; break;
+        case 'q': quiet = 1; break;
+        case 'h': fputs(scenario_help, stdout); return EXIT_OK;
+        default: return bad_option("scenario", argv, c);
+        }
+    }
+    if (optind < argc)
+        return usage_error("scenario", "unexpected argument '%s'", argv[optind]);
+    if (print == (check != NULL))
+        return usage_error("scenario", "give exactly one of --print or --check FILE%s", "");
+    tl_scenario s;
+    tl_scenario_default(&s);
+    if (check != NULL) {
+        char err[1024];
+        if (tl_scenario_load(check, &s, err, sizeof err) != 0) {
+            fprintf(stderr, "tidelock scenario: %s\n", err);
+            return EXIT_FAIL;
+        }
+        if (quiet)
+            return EXIT_OK;
+    }
+    return tl_scenario_write(stdout, &s) == 0 ? EXIT_OK : EXIT_FAIL;
+}
+
+/* ---- tables -------------------------------------------------------------- */
+
+typedef struct image_out {
+    const uint8_t *bytes;
+    size_t len;
+} image_out;
+
+static int write_image(FILE *f, void *ctx)
+{
+    const image_out *im = ctx;
+    return fwrite(im->bytes, 1, im->len, f) == im->len ? 0 : -1;
 }
 
 static int cmd_tables(int argc, char **argv)
 {
-    if (argc != 2 || (strcmp(argv[0], "twiddle-source") != 0 && strcmp(argv[0], "taps-source") != 0)) {
-        fprintf(stderr, "tidelock tables: expected 'twiddle-source FILE' or 'taps-source FILE'\n");
-        return 2;
+    static const struct option opts[] = { { "output", required_argument, NULL, 'o' },
+                                          { "twiddle-source", required_argument, NULL, 'w' },
+                                          { "taps-source", required_argument, NULL, 't' },
+                                          { "help", no_argument, NULL, 'h' },
+                                          { NULL, 0, NULL, 0 } };
+    const char *out = NULL, *tw = NULL, *ts = NULL;
+    int c;
+    opterr = 0;
+    while ((c = getopt_long(argc, argv, ":o:h", opts, NULL)) != -1) {
+        switch (c) {
+        case 'o': out = optarg; break;
+        case 'w': tw = optarg; break;
+        case 't': ts = optarg; break;
+        case 'h': fputs(tables_help, stdout); return EXIT_OK;
+        default: return bad_option("tables", argv, c);
+        }
     }
-    char err[4400];
-    if (tl_gen_write_file(argv[1], strcmp(argv[0], "twiddle-source") == 0 ? tl_gen_twiddle_source
-                                                                         : tl_gen_default_taps_source,
-                          err, sizeof err) != 0) {
+    if ((out != NULL) + (tw != NULL) + (ts != NULL) != 1)
+        return usage_error("tables", "give exactly one of -o FILE, --twiddle-source FILE, --taps-source FILE%s", "");
+    char err[1024];
+    if (tw != NULL || ts != NULL) {
+        if (optind < argc)
+            return usage_error("tables", "unexpected argument '%s'", argv[optind]);
+        if (tl_gen_write_file(tw ? tw : ts, tw ? tl_gen_twiddle_source : tl_gen_default_taps_source, err,
+                              sizeof err) != 0) {
+            fprintf(stderr, "tidelock tables: %s\n", err);
+            return EXIT_FAIL;
+        }
+        return EXIT_OK;
+    }
+    if (argc - optind > 1)
+        return usage_error("tables", "expected at most one scenario file, got also '%s'", argv[optind + 1]);
+    tl_scenario s;
+    tl_scenario_default(&s);
+    if (optind < argc && tl_scenario_load(argv[optind], &s, err, sizeof err) != 0) {
         fprintf(stderr, "tidelock tables: %s\n", err);
-        return 1;
+        return EXIT_FAIL;
     }
-    return 0;
+    tl_taps *t = malloc(sizeof *t);
+    const size_t cap = TL_TAPS_IMAGE_BYTES(s.cfg.taps, s.cfg.points);
+    uint8_t *img = malloc(cap);
+    size_t len = 0;
+    int rc = EXIT_FAIL;
+    if (t == NULL || img == NULL) {
+        fprintf(stderr, "tidelock tables: out of memory\n");
+    } else if (tl_taps_design(s.window, s.cfg.taps, s.cfg.points, t, NULL) != 0 ||
+               tl_taps_write_image(t, img, cap, &len) != TL_OK) {
+        fprintf(stderr, "tidelock tables: cannot design a %u-tap %s table of %u points\n", s.cfg.taps,
+                tl_window_name(s.window), s.cfg.points);
+    } else {
+        image_out im = { img, len };
+        if (tl_atomic_write(out, write_image, &im, err, sizeof err) != 0)
+            fprintf(stderr, "tidelock tables: %s\n", err);
+        else
+            rc = EXIT_OK;
+    }
+    free(t);
+    free(img);
+    return rc;
 }
+
+/* ---- dispatch -------------------------------------------------------------- */
 
 int main(int argc, char **argv)
 {
-    if (argc < 2 || strcmp(argv[1], "help") == 0 || strcmp(argv[1], "--help") == 0) {
-        usage(argc < 2 ? stderr : stdout);
-        return argc < 2 ? 2 : 0;
+    if (argc < 2) {
+        fputs(main_help, stderr);
+        return EXIT_USAGE;
     }
-    if (strcmp(argv[1], "run") == 0)
-        return cmd_run(argc - 2, argv + 2);
-    if (strcmp(argv[1], "tables") == 0)
-        return cmd_tables(argc - 2, argv + 2);
-    fprintf(stderr, "tidelock: unknown command '%s' (commands: run, tables, help)\n", argv[1]);
-    return 2;
+    const char *cmd = argv[1];
+    if (strcmp(cmd, "--help") == 0 || strcmp(cmd, "-h") == 0) {
+        fputs(main_help, stdout);
+        return EXIT_OK;
+    }
+    if (strcmp(cmd, "--version") == 0 || strcmp(cmd, "-V") == 0) {
+        printf("tidelock %s (arithmetic spec %u)\n", TL_TOOL_VERSION, (unsigned)TL_ARITH_VERSION);
+        return EXIT_OK;
+    }
+    if (strcmp(cmd, "help") == 0) {
+        const char *topic = argc > 2 ? argv[2] : "";
+        fputs(strcmp(topic, "run") == 0        ? run_help
+              : strcmp(topic, "scenario") == 0 ? scenario_help
+              : strcmp(topic, "tables") == 0   ? tables_help
+                                               : main_help,
+              stdout);
+        return EXIT_OK;
+    }
+    if (strcmp(cmd, "run") == 0)
+        return cmd_run(argc - 1, argv + 1);
+    if (strcmp(cmd, "scenario") == 0)
+        return cmd_scenario(argc - 1, argv + 1);
+    if (strcmp(cmd, "tables") == 0)
+        return cmd_tables(argc - 1, argv + 1);
+    fprintf(stderr, "tidelock: unknown command '%s' (commands: run, scenario, tables, help; see tidelock --help)\n",
+            cmd);
+    return EXIT_USAGE;
 }

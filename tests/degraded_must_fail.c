@@ -28,7 +28,7 @@ static void test_sixteen_bit_data_path_fails(void **state)
     s.spectra = 1024u; /* the failure is gross; a shorter run shows it */
     s.blocks = 16u;
     tl_run_result *r = calloc(1, sizeof *r);
-    assert_int_equal(tl_run_scenario(&s, r), TL_OK);
+    assert_int_equal(tl_run_scenario(&s, r, NULL, NULL), TL_OK);
     const tl_fid_metrics *m = &r->fid.main[TL_FID_AUTO0];
     char why[4096];
     const int fails = tl_fidelity_verdict(&r->fid, why, sizeof why);

@@ -1,7 +1,8 @@
 /*
  * test_cli.c - the `tidelock` command line: bad input gets one clear line,
- * a non-zero exit, and no lost or half-written output. Runs the tidelock
- * binary built next to this test (build/rel/tidelock, build/san/tidelock).
+ * a non-zero exit (2 for usage, 1 for failures), and no lost or half-written
+ * output; --help on every command with an example; --version; -q. Runs the
+ * tidelock binary built next to this test (build/rel/, build/san/).
  */
 #include <dirent.h>
 #include <jansson.h>
@@ -54,18 +55,41 @@ static void test_bad_commands_and_options(void **state)
 {
     (void)state;
     expect_one_line("frobnicate", 2, "frobnicate");
-    expect_one_line("run --bogus", 2, "--bogus");
+    expect_one_line("run --bogus", 2, "unknown option '--bogus'");
     expect_one_line("run --drive abc", 2, "from -40 to 12");
     expect_one_line("run --drive 13", 2, "'13'");
     expect_one_line("run --drive -41", 2, "'-41'");
-    expect_one_line("tables nonsense", 2, "twiddle-source FILE");
+    expect_one_line("run a.ini b.ini", 2, "at most one scenario file");
     expect_one_line("run -o", 2, "-o needs a value");
     expect_one_line("run --drive", 2, "--drive needs a value");
+    expect_one_line("tables nonsense", 2, "exactly one of -o FILE");
+    expect_one_line("tables -o a --twiddle-source b", 2, "exactly one of");
+    expect_one_line("scenario", 2, "exactly one of --print or --check");
+    expect_one_line("scenario --print extra", 2, "unexpected argument 'extra'");
+    expect_one_line("run /nonexistent/s.ini -o /tmp", 1, "/nonexistent/s.ini: cannot open");
     char out[8192];
     assert_int_equal(run("", out, sizeof out), 2); /* usage on stderr */
     assert_non_null(strstr(out, "usage: tidelock"));
-    assert_int_equal(run("help", out, sizeof out), 0);
-    assert_non_null(strstr(out, "run [-o DIR]"));
+}
+
+/* --help on every command (with an example, exit 0), help COMMAND, --version. */
+static void test_help_and_version(void **state)
+{
+    (void)state;
+    const char *cmds[] = { "--help", "run --help", "scenario --help", "tables --help", "help run", "help tables",
+                           "run -h" };
+    char out[8192];
+    for (size_t i = 0; i < sizeof cmds / sizeof cmds[0]; i++) {
+        assert_int_equal(run(cmds[i], out, sizeof out), 0);
+        assert_non_null(strstr(out, "usage: tidelock"));
+        if (strstr(out, "example: tidelock") == NULL)
+            fail_msg("'tidelock %s' shows no example", cmds[i]);
+        assert_true(strstr(out, "options:") != NULL || strstr(out, "commands:") != NULL);
+    }
+    assert_int_equal(run("--version", out, sizeof out), 0);
+    assert_int_equal(lines(out), 1);
+    assert_non_null(strstr(out, "tidelock "));
+    assert_non_null(strstr(out, "arithmetic spec 1"));
 }
 
 /* An output folder that cannot be made: one line naming it, exit 1, nothing written. */
@@ -86,7 +110,7 @@ static void test_unwritable_output(void **state)
     snprintf(target, sizeof target, "%s/sub/summary.json", blocker);
     assert_int_not_equal(stat(target, &st), 0);
     /* tables into a missing folder: no file, no temporary left behind */
-    snprintf(args, sizeof args, "tables twiddle-source %s/missing/t.c", dir);
+    snprintf(args, sizeof args, "tables --twiddle-source %s/missing/t.c", dir);
     expect_one_line(args, 1, "missing/t.c");
     remove(blocker);
     rmdir(dir);
@@ -101,7 +125,7 @@ static void test_tables_regenerate(void **state)
     assert_true(fd >= 0);
     close(fd);
     char args[256], out[4096];
-    snprintf(args, sizeof args, "tables twiddle-source %s", path);
+    snprintf(args, sizeof args, "tables --twiddle-source %s", path);
     assert_int_equal(run(args, out, sizeof out), 0);
     FILE *a = fopen(path, "rb"), *b = fopen("firmware/tl_twiddle_table.c", "rb");
     assert_non_null(a);
@@ -117,17 +141,74 @@ static void test_tables_regenerate(void **state)
     remove(path);
 }
 
+/* `tables [SCENARIO] -o FILE`: the image the firmware loads. Without a
+ * scenario it is the built-in default table, byte for byte; with one, its
+ * geometry and window, and the chain accepts it. */
+static void test_tables_image(void **state)
+{
+    (void)state;
+    char dir[] = "/tmp/tl_cli_tab_XXXXXX";
+    assert_non_null(mkdtemp(dir));
+    char args[1024], out[4096], img_path[300], ini[300];
+    snprintf(img_path, sizeof img_path, "%s/default.bin", dir);
+    snprintf(args, sizeof args, "tables -o %s", img_path);
+    assert_int_equal(run(args, out, sizeof out), 0);
+    tl_taps *t = malloc(sizeof *t);
+    assert_int_equal(tl_taps_default(t), TL_OK);
+    const size_t cap = TL_TAPS_IMAGE_BYTES(t->taps, t->points);
+    uint8_t *want = malloc(cap), *got = malloc(cap + 1u);
+    size_t len = 0;
+    assert_int_equal(tl_taps_write_image(t, want, cap, &len), TL_OK);
+    FILE *f = fopen(img_path, "rb");
+    assert_non_null(f);
+    assert_int_equal(fread(got, 1, cap + 1u, f), cap);
+    fclose(f);
+    assert_memory_equal(got, want, cap);
+    /* a scenario with other geometry */
+    snprintf(ini, sizeof ini, "%s/s.ini", dir);
+    f = fopen(ini, "w");
+    fputs("[instrument]\nchannels = 1024\ntaps = 8\nwindow = blackman\n", f);
+    fclose(f);
+    snprintf(img_path, sizeof img_path, "%s/b.bin", dir);
+    snprintf(args, sizeof args, "tables %s -o %s", ini, img_path);
+    assert_int_equal(run(args, out, sizeof out), 0);
+    f = fopen(img_path, "rb");
+    const size_t n = fread(got, 1, cap, f);
+    fclose(f);
+    uint32_t points = 0, taps = 0;
+    assert_int_equal(tl_taps_check_image(got, n, &points, &taps), TL_OK);
+    assert_int_equal(points, 2048);
+    assert_int_equal(taps, 8);
+    assert_int_equal(got[5], TL_WINDOW_BLACKMAN);
+    tl_config cfg;
+    tl_config_default(&cfg);
+    cfg.points = 2048;
+    cfg.taps = 8;
+    tl_chain *c = tl_test_chain();
+    assert_int_equal(tl_chain_init(c, &cfg, got, n), TL_OK);
+    free(c);
+    free(t);
+    free(want);
+    free(got);
+    remove(img_path);
+    snprintf(img_path, sizeof img_path, "%s/default.bin", dir);
+    remove(img_path);
+    remove(ini);
+    rmdir(dir);
+}
+
 /* The whole default run: exit 0, a summary that parses, carries the
- * verdict and the figures, and no temporary file left in the folder. */
-static void test_run_writes_summary(void **state)
+ * verdict and the figures, the resolved scenario, the spectra, and no
+ * temporary file left in the folder; -q prints nothing. */
+static void test_run_writes_outputs(void **state)
 {
     (void)state;
     char dir[] = "/tmp/tl_cli_run_XXXXXX";
     assert_non_null(mkdtemp(dir));
     char args[256], out[16384], path[512];
-    snprintf(args, sizeof args, "run -o %s", dir);
+    snprintf(args, sizeof args, "run -q -o %s", dir);
     assert_int_equal(run(args, out, sizeof out), 0);
-    assert_non_null(strstr(out, "verdict: PASS"));
+    assert_string_equal(out, ""); /* -q: nothing on stdout or stderr */
     snprintf(path, sizeof path, "%s/summary.json", dir);
     json_error_t jerr;
     json_t *root = json_load_file(path, 0, &jerr);
@@ -142,18 +223,31 @@ static void test_run_writes_summary(void **state)
     assert_true(ext > 0.0 && ext < 0.01);
     assert_int_equal(json_integer_value(json_object_get(json_object_get(root, "config"), "channels")), 4096);
     json_decref(root);
+    const char *expected[] = { "summary.json", "scenario.ini", "auto0.csv", "auto1.csv", "cross.csv", "auto0.npy",
+                               "auto1.npy", "cross.npy", "flags.npy", "frequency_mhz.npy" };
+    const size_t nexp = sizeof expected / sizeof expected[0];
     DIR *d = opendir(dir);
     struct dirent *e;
-    int files = 0;
+    size_t files = 0;
     while ((e = readdir(d)) != NULL) {
         if (e->d_name[0] == '.')
             continue;
+        int known = 0;
+        for (size_t i = 0; i < nexp; i++)
+            known |= strcmp(e->d_name, expected[i]) == 0;
+        if (!known)
+            fail_msg("unexpected file %s in the output folder (a temporary left behind?)", e->d_name);
         files++;
-        assert_string_equal(e->d_name, "summary.json");
     }
     closedir(d);
-    assert_int_equal(files, 1);
-    remove(path);
+    assert_int_equal(files, nexp);
+    /* the resolved scenario reproduces the run: it checks clean */
+    snprintf(args, sizeof args, "scenario --check %s/scenario.ini -q", dir);
+    assert_int_equal(run(args, out, sizeof out), 0);
+    for (size_t i = 0; i < nexp; i++) {
+        snprintf(path, sizeof path, "%s/%s", dir, expected[i]);
+        remove(path);
+    }
     rmdir(dir);
 }
 
@@ -167,7 +261,9 @@ int main(int argc, char **argv)
         cmocka_unit_test(test_bad_commands_and_options),
         cmocka_unit_test(test_unwritable_output),
         cmocka_unit_test(test_tables_regenerate),
-        cmocka_unit_test(test_run_writes_summary),
+        cmocka_unit_test(test_help_and_version),
+        cmocka_unit_test(test_tables_image),
+        cmocka_unit_test(test_run_writes_outputs),
     };
     return cmocka_run_group_tests_name("cli", tests, NULL, NULL);
 }

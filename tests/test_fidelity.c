@@ -28,7 +28,7 @@ static tl_run_result *run_at(double drive_db, uint32_t rounding, uint32_t det_sh
     s.sky.seed = tl_test_seed("fidelity", 1);
     tl_run_result *r = calloc(1, sizeof *r);
     assert_non_null(r);
-    assert_int_equal(tl_run_scenario(&s, r), TL_OK);
+    assert_int_equal(tl_run_scenario(&s, r, NULL, NULL), TL_OK);
     const tl_fid_result *f = &r->fid;
     printf("    drive %+.0f dB, rounding %u, det shift %u: %.1f s\n", drive_db, rounding, f->det_shift, r->seconds);
     for (int p = 0; p < TL_FID_PRODUCTS; p++) {
