@@ -197,6 +197,30 @@ static void test_tables_image(void **state)
     rmdir(dir);
 }
 
+/* Not a terminal: no progress bar (no carriage return), no escape codes;
+ * the printed tables carry their units. A small scenario keeps it fast. */
+static void test_plain_output_with_units(void **state)
+{
+    (void)state;
+    char dir[] = "/tmp/tl_cli_small_XXXXXX";
+    assert_non_null(mkdtemp(dir));
+    char ini[300], args[1024], out[16384];
+    snprintf(ini, sizeof ini, "%s/small.ini", dir);
+    FILE *f = fopen(ini, "w");
+    fputs("[instrument]\nchannels = 512\n[integration]\nspectra = 512\n[output]\ncsv = false\nnpy = false\n", f);
+    fclose(f);
+    snprintf(args, sizeof args, "run %s -o %s", ini, dir);
+    assert_int_equal(run(args, out, sizeof out), 0);
+    assert_null(strchr(out, '\r'));
+    assert_null(strchr(out, '\033'));
+    const char *must[] = { "verdict: PASS", "[noise]", "[rel]", "kHz", "MHz", "LSB^2", "samples", "dB" };
+    for (size_t i = 0; i < sizeof must / sizeof must[0]; i++)
+        if (strstr(out, must[i]) == NULL)
+            fail_msg("run output lacks '%s'", must[i]);
+    snprintf(args, sizeof args, "rm -rf %s", dir);
+    assert_int_equal(system(args), 0);
+}
+
 /* The whole default run: exit 0, a summary that parses, carries the
  * verdict and the figures, the resolved scenario, the spectra, and no
  * temporary file left in the folder; -q prints nothing. */
@@ -263,6 +287,7 @@ int main(int argc, char **argv)
         cmocka_unit_test(test_tables_regenerate),
         cmocka_unit_test(test_help_and_version),
         cmocka_unit_test(test_tables_image),
+        cmocka_unit_test(test_plain_output_with_units),
         cmocka_unit_test(test_run_writes_outputs),
     };
     return cmocka_run_group_tests_name("cli", tests, NULL, NULL);
