@@ -113,6 +113,14 @@ static const key_def keys[] = {
 static const char *const sections[] = { "scenario", "instrument", "integration", "sky", "fidelity", "output" };
 #define NSECTIONS (sizeof sections / sizeof sections[0])
 
+/* Fields that other keys determine. */
+static void sync_derived(tl_scenario *s)
+{
+    s->cfg.integration = s->spectra;
+    s->sky.adc_bits = s->cfg.adc_bits;
+    s->sky.inputs = s->cfg.inputs;
+}
+
 void tl_scenario_default(tl_scenario *s)
 {
     memset(s, 0, sizeof *s);
@@ -133,6 +141,7 @@ void tl_scenario_default(tl_scenario *s)
     snprintf(s->folder, sizeof s->folder, "out");
     s->write_csv = 1;
     s->write_npy = 1;
+    sync_derived(s);
 }
 
 double tl_scenario_channel_hz(const tl_scenario *s)
@@ -170,9 +179,16 @@ static void format_value(const tl_scenario *s, const key_def *k, char *out, size
     case K_U64:
         snprintf(out, cap, "%llu", (unsigned long long)*(const uint64_t *)p);
         break;
-    case K_REAL:
-        snprintf(out, cap, "%.10g", *(const double *)p / k->scale);
+    case K_REAL: {
+        /* the shortest text that reads back as the same double */
+        const double v = *(const double *)p / k->scale;
+        for (int prec = 10; prec <= 17; prec++) {
+            snprintf(out, cap, "%.*g", prec, v);
+            if (strtod(out, NULL) == v)
+                break;
+        }
         break;
+    }
     case K_CHANNELS:
         snprintf(out, cap, "%u", *(const uint32_t *)p / 2u);
         break;
@@ -265,6 +281,18 @@ static int set_value(tl_scenario *s, const key_def *k, const char *v, char *why,
             snprintf(why, cap, "must be %s", range);
             return -1;
         }
+        /* inih would cut a value at ' ;' (an inline comment): such text could
+         * not be written and read back, nor could control characters */
+        for (size_t i = 0; k->kind == K_TEXT && i < n; i++)
+            if ((unsigned char)v[i] < 0x20 || v[i] == 0x7F ||
+                (v[i] == ';' && (i == 0 || v[i - 1] == ' ' || v[i - 1] == '\t'))) {
+                snprintf(why, cap, "must be %s, without control characters or a ';' after a space", range);
+                return -1;
+            }
+        if (n > 0 && (isspace((unsigned char)v[0]) || isspace((unsigned char)v[n - 1]))) {
+            snprintf(why, cap, "must not start or end with a space");
+            return -1;
+        }
         if (k->kind == K_NAME)
             for (size_t i = 0; i < n; i++)
                 if (!isalnum((unsigned char)v[i]) && v[i] != '.' && v[i] != '_' && v[i] != '-') {
@@ -284,9 +312,10 @@ static int set_value(tl_scenario *s, const key_def *k, const char *v, char *why,
             return 0;
         }
         unsigned long long x = 0;
-        if (parse_uint(v, k->kind == K_MASK ? 0 : 10, &x) != 0 || (double)x < k->min || (double)x > k->max ||
+        const int hex = k->kind == K_MASK && v[0] == '0' && (v[1] == 'x' || v[1] == 'X');
+        if (parse_uint(v, hex ? 16 : 10, &x) != 0 || (double)x < k->min || (double)x > k->max ||
             (k->kind == K_CHANNELS && (x & (x - 1u)) != 0u)) {
-            snprintf(why, cap, "must be %s", range);
+            snprintf(why, cap, "must be %s%s%s", range, *k->unit ? " " : "", k->unit);
             return -1;
         }
         if (k->kind == K_U64)
@@ -301,7 +330,8 @@ static int set_value(tl_scenario *s, const key_def *k, const char *v, char *why,
         char *end = NULL;
         errno = 0;
         const double x = strtod(v, &end);
-        if (*v == '\0' || errno != 0 || end == v || *end != '\0' || !isfinite(x) || x < k->min || x > k->max) {
+        if (*v == '\0' || strpbrk(v, "xX") != NULL || errno != 0 || end == v || *end != '\0' || !isfinite(x) ||
+            x < k->min || x > k->max) {
             snprintf(why, cap, "must be %s%s%s", range, *k->unit ? " " : "", k->unit);
             return -1;
         }
@@ -336,6 +366,7 @@ typedef struct parse_ctx {
     int line;               /* line the reader handed to inih last */
     int key_line[NKEYS];    /* where each key was given, 0 = default */
     int failed;             /* an error is in err */
+    int fail_line;          /* its line */
     char *err;
     size_t cap;
 } parse_ctx;
@@ -345,6 +376,7 @@ static int fail_at(parse_ctx *c, const char *fmt, ...)
     if (c->failed)
         return 0;
     c->failed = 1;
+    c->fail_line = c->line;
     int used = snprintf(c->err, c->cap, "%s:%d: ", c->path, c->line);
     if (used < 0 || (size_t)used >= c->cap)
         return 0;
@@ -379,34 +411,46 @@ static void key_list(const char *section, char *out, size_t cap)
             used += (size_t)snprintf(out + used, cap - used, "%s%s", used ? ", " : "", keys[i].key);
 }
 
-/* inih reader: one line at a time, so the handler knows the line number;
- * also rejects what inih would silently accept or mangle. */
+/* inih reader: one line at a time, so the handler knows the line number.
+ * It also rejects what inih would accept silently or mangle: long lines,
+ * indented (continuation) lines, unknown sections, text after a section
+ * header, "key: value", and " ;" inside a value (inih would cut the value
+ * there as an inline comment). The line is handed over without its newline. */
 static char *reader(char *str, int num, void *stream)
 {
     parse_ctx *c = stream;
-    if (c->failed || fgets(str, num, c->f) == NULL)
+    char buf[1024];
+    if (c->failed || fgets(buf, sizeof buf, c->f) == NULL)
         return NULL;
     c->line++;
-    const size_t n = strlen(str);
-    if (n > 0 && str[n - 1] != '\n' && !feof(c->f)) {
-        fail_at(c, "line longer than %d characters", num - 1);
+    size_t n = strlen(buf);
+    const int complete = (n > 0 && buf[n - 1] == '\n') || feof(c->f);
+    while (n > 0 && (buf[n - 1] == '\n' || buf[n - 1] == '\r'))
+        buf[--n] = '\0';
+    if (!complete || n > (size_t)(num - 1) || n > TL_SCENARIO_LINE_MAX) {
+        fail_at(c, "line longer than %d characters", TL_SCENARIO_LINE_MAX);
         return NULL;
     }
-    const char *t = str;
+    const char *t = buf;
     if (c->line == 1 && (unsigned char)t[0] == 0xEF && (unsigned char)t[1] == 0xBB && (unsigned char)t[2] == 0xBF)
         t += 3; /* UTF-8 byte order mark */
-    if ((*t == ' ' || *t == '\t') && t[strspn(t, " \t\r\n")] != '\0' && t[strspn(t, " \t")] != '#' &&
-        t[strspn(t, " \t")] != ';') {
+    const char *first = t + strspn(t, " \t");
+    const int blank = *first == '\0', comment = *first == '#' || *first == ';';
+    if ((*t == ' ' || *t == '\t') && !blank && !comment) {
         fail_at(c, "indented line: continuation lines are not allowed (start every key at the first column)");
         return NULL;
     }
-    t += strspn(t, " \t");
-    if (*t == '[') {
-        const char *end = strchr(t, ']');
-        char name[64];
-        const size_t len = end ? (size_t)(end - t - 1) : 0;
-        if (end != NULL && len < sizeof name) {
-            memcpy(name, t + 1, len);
+    if (*first == '[') {
+        const char *end = strchr(first, ']');
+        if (end != NULL) {
+            const char *after = end + 1 + strspn(end + 1, " \t");
+            if (*after != '\0' && *after != '#' && *after != ';') {
+                fail_at(c, "text after the section header '%.*s'", (int)(end - first + 1), first);
+                return NULL;
+            }
+            const size_t len = (size_t)(end - first - 1);
+            char name[TL_SCENARIO_LINE_MAX + 1];
+            memcpy(name, first + 1, len);
             name[len] = '\0';
             if (!known_section(name)) {
                 char list[200];
@@ -415,7 +459,18 @@ static char *reader(char *str, int num, void *stream)
                 return NULL;
             }
         }
+    } else if (!blank && !comment) {
+        const char *eq = strchr(first, '='), *colon = strchr(first, ':');
+        if (eq == NULL || (colon != NULL && colon < eq)) {
+            fail_at(c, "expected 'key = value', '[section]' or a '#' comment");
+            return NULL;
+        }
+        if (strstr(eq, " ;") != NULL || strstr(eq, "\t;") != NULL) {
+            fail_at(c, "' ;' inside a value would start a comment; remove the ';'");
+            return NULL;
+        }
     }
+    memcpy(str, buf, n + 1u);
     return str;
 }
 
@@ -469,8 +524,10 @@ static int fail_key(const tl_scenario *s, const char *path, const int *lines, co
     int used;
     if (line > 0)
         used = snprintf(err, cap, "%s:%d: [%s] %s = '%s': ", path, line, section, name, val);
-    else
+    else if (lines != NULL)
         used = snprintf(err, cap, "%s: [%s] %s = '%s' (default): ", path, section, name, val);
+    else
+        used = snprintf(err, cap, "%s: [%s] %s = '%s': ", path, section, name, val);
     if (used >= 0 && (size_t)used < cap) {
         va_list ap;
         va_start(ap, fmt);
@@ -515,17 +572,59 @@ static int check_relations(const tl_scenario *s, const char *path, const int *li
     return 0;
 }
 
+/* Is the stored value of k inside its range? (A struct built in code may
+ * hold what no file could: check the raw field, not its formatted text.) */
+static int raw_ok(const tl_scenario *s, const key_def *k)
+{
+    const void *p = field(s, k);
+    switch (k->kind) {
+    case K_TEXT:
+    case K_NAME: {
+        const char *t = p;
+        if (memchr(t, '\0', k->size) == NULL)
+            return 0;
+        tl_scenario copy = *s;
+        char why[300];
+        return set_value(&copy, k, t, why, sizeof why) == 0;
+    }
+    case K_U32:
+        return *(const uint32_t *)p >= k->min && *(const uint32_t *)p <= k->max;
+    case K_U64:
+        return (double)*(const uint64_t *)p >= k->min && (double)*(const uint64_t *)p <= k->max;
+    case K_REAL: {
+        const double v = *(const double *)p / k->scale;
+        return isfinite(v) && v >= k->min && v <= k->max;
+    }
+    case K_CHANNELS: {
+        const uint32_t pts = *(const uint32_t *)p, ch = pts / 2u;
+        return (pts & 1u) == 0u && ch >= k->min && ch <= k->max && (ch & (ch - 1u)) == 0u;
+    }
+    case K_CHOICE: {
+        unsigned n = 0;
+        while (k->choices[n] != NULL)
+            n++;
+        return *(const unsigned *)p < n;
+    }
+    case K_AUTO_U32:
+    case K_MASK:
+        return *(const uint32_t *)p == k->auto_value || (*(const uint32_t *)p >= k->min && *(const uint32_t *)p <= k->max);
+    case K_BOOL:
+        return *(const unsigned *)p <= 1u;
+    }
+    return 0;
+}
+
 int tl_scenario_check(const tl_scenario *s, const char *path, char *err, size_t cap)
 {
     if (path == NULL)
         path = "scenario";
-    /* each key's own range (a struct built in code may hold anything) */
     for (size_t i = 0; i < NKEYS; i++) {
-        char val[200], why[300];
-        format_value(s, &keys[i], val, sizeof val);
-        tl_scenario copy = *s;
-        if (set_value(&copy, &keys[i], val, why, sizeof why) != 0)
-            return fail_key(s, path, NULL, keys[i].section, keys[i].key, err, cap, "%s", why);
+        if (raw_ok(s, &keys[i]))
+            continue;
+        char range[200];
+        format_range(&keys[i], range, sizeof range);
+        return fail_key(s, path, NULL, keys[i].section, keys[i].key, err, cap, "must be %s%s%s", range,
+                        *keys[i].unit ? " " : "", keys[i].unit);
     }
     return check_relations(s, path, NULL, err, cap);
 }
@@ -546,6 +645,10 @@ int tl_scenario_load(const char *path, tl_scenario *s, char *err, size_t cap)
     const int rc = ini_parse_stream(reader, &c, handler, &c);
     const int read_error = ferror(c.f);
     fclose(c.f);
+    if (rc > 0 && (!c.failed || rc < c.fail_line)) { /* inih's syntax error came first */
+        snprintf(err, cap, "%s:%d: expected 'key = value', '[section]' or a '#' comment", path, rc);
+        return -1;
+    }
     if (c.failed)
         return -1;
     if (read_error) {
@@ -560,6 +663,7 @@ int tl_scenario_load(const char *path, tl_scenario *s, char *err, size_t cap)
         snprintf(err, cap, "%s: cannot parse (out of memory)", path);
         return -1;
     }
+    sync_derived(s);
     return check_relations(s, path, c.key_line, err, cap);
 }
 

@@ -5,8 +5,11 @@
  * concern: [scenario], [instrument], [integration], [sky], [fidelity],
  * [output]. Every key is optional (the built-in default fills it in), every
  * given key is checked for type and range, and unknown sections or keys,
- * repeated keys, indented continuation lines and lines longer than 199
- * characters are errors. Errors are one line:
+ * repeated keys, indented continuation lines, lines longer than 199
+ * characters, text after a section header, "key: value", and " ;" inside a
+ * value (which the INI library would take as a comment and cut) are errors.
+ * Integers are decimal (masks may be 0x hex); numbers are decimal. The first
+ * error in the file is reported, as one line:
  *     FILE:LINE: [section] key = 'value': must be ... (unit)
  *
  * The built-in default is a demo scenario of our own: the "Hushfield"
@@ -25,7 +28,8 @@
 
 #define TL_SCENARIO_NAME_MAX 64
 #define TL_SCENARIO_TEXT_MAX 160
-#define TL_SCENARIO_PATH_MAX 256
+#define TL_SCENARIO_PATH_MAX 181  /* folder: up to 180 characters, so its line fits */
+#define TL_SCENARIO_LINE_MAX 199  /* longest line of a scenario file */
 
 typedef struct tl_scenario {
     char name[TL_SCENARIO_NAME_MAX];
