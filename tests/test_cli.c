@@ -221,6 +221,63 @@ static void test_plain_output_with_units(void **state)
     assert_int_equal(system(args), 0);
 }
 
+/* The user's path: copy the example scenario, change the channel count,
+ * run it, load the spectra in numpy (Debian's python3-numpy when present;
+ * otherwise the .npy header is checked against the format). */
+static void test_copy_example_change_channels_load_in_numpy(void **state)
+{
+    (void)state;
+    char dir[] = "/tmp/tl_cli_user_XXXXXX";
+    assert_non_null(mkdtemp(dir));
+    char cmd[2048], out[16384];
+    snprintf(cmd, sizeof cmd,
+             "sed -e 's/^channels = 4096$/channels = 1024/' -e 's/^spectra = 4096$/spectra = 1024/' "
+             "docs/scenario-default.ini > %s/mine.ini && grep -c '^channels = 1024$' %s/mine.ini",
+             dir, dir);
+    FILE *p = popen(cmd, "r");
+    assert_int_equal(fread(out, 1, sizeof out - 1, p) > 0, 1);
+    assert_int_equal(pclose(p), 0);
+    snprintf(cmd, sizeof cmd, "run %s/mine.ini -q -o %s/out", dir, dir);
+    assert_int_equal(run(cmd, out, sizeof out), 0);
+    if (system("/usr/bin/python3 -c 'import numpy' >/dev/null 2>&1") == 0) {
+        snprintf(cmd, sizeof cmd,
+                 "/usr/bin/python3 -c \"import numpy as n; a = n.load('%s/out/auto0.npy'); "
+                 "f = n.load('%s/out/frequency_mhz.npy'); c = n.load('%s/out/cross.npy'); "
+                 "print(a.dtype, a.shape, c.dtype, c.shape, '%%.6f' %% f[1], int(a[100]))\"",
+                 dir, dir, dir);
+        p = popen(cmd, "r");
+        const size_t n = fread(out, 1, sizeof out - 1, p);
+        out[n] = '\0';
+        assert_int_equal(pclose(p), 0);
+        printf("    numpy: %s", out);
+        /* channel width 102.4 MHz / 2048 points = 0.05 MHz */
+        assert_non_null(strstr(out, "uint64 (1024,) int64 (1024, 2) 0.050000 "));
+        /* the value numpy reads is the CSV's value for channel 100 */
+        char csv[512], line[256];
+        snprintf(csv, sizeof csv, "%s/out/auto0.csv", dir);
+        FILE *f = fopen(csv, "r");
+        for (int i = 0; i <= 101; i++)
+            assert_non_null(fgets(line, sizeof line, f));
+        fclose(f);
+        const char *value = strchr(line, ',') + 1;
+        char want[64];
+        snprintf(want, sizeof want, "%.*s", (int)(strchr(value, ',') - value), value);
+        assert_non_null(strstr(out, want));
+    } else {
+        printf("    numpy absent: checking the .npy header bytes instead\n");
+        char path[512];
+        snprintf(path, sizeof path, "%s/out/auto0.npy", dir);
+        FILE *f = fopen(path, "rb");
+        unsigned char h[128];
+        assert_int_equal(fread(h, 1, sizeof h, f), sizeof h);
+        fclose(f);
+        assert_memory_equal(h, "\x93NUMPY\x01\x00", 8);
+        assert_non_null(strstr((const char *)h + 10, "'shape': (1024,)"));
+    }
+    snprintf(cmd, sizeof cmd, "rm -rf %s", dir);
+    assert_int_equal(system(cmd), 0);
+}
+
 /* The whole default run: exit 0, a summary that parses, carries the
  * verdict and the figures, the resolved scenario, the spectra, and no
  * temporary file left in the folder; -q prints nothing. */
@@ -288,6 +345,7 @@ int main(int argc, char **argv)
         cmocka_unit_test(test_help_and_version),
         cmocka_unit_test(test_tables_image),
         cmocka_unit_test(test_plain_output_with_units),
+        cmocka_unit_test(test_copy_example_change_channels_load_in_numpy),
         cmocka_unit_test(test_run_writes_outputs),
     };
     return cmocka_run_group_tests_name("cli", tests, NULL, NULL);
