@@ -17,19 +17,12 @@
 
 #include "tl_test.h"
 
-static char tool[4096];
+static char argv0[4096];
 
-/* Run a command line; capture stderr+stdout into out; return the exit status. */
+/* Run tidelock with args; stderr+stdout into out; the exit status. */
 static int run(const char *args, char *out, size_t cap)
 {
-    char cmd[8192];
-    snprintf(cmd, sizeof cmd, "%s %s 2>&1", tool, args);
-    FILE *p = popen(cmd, "r");
-    assert_non_null(p);
-    size_t n = fread(out, 1, cap - 1, p);
-    out[n] = '\0';
-    const int st = pclose(p);
-    return WIFEXITED(st) ? WEXITSTATUS(st) : -1;
+    return tl_test_tool(argv0, args, out, cap);
 }
 
 static int lines(const char *s)
@@ -335,9 +328,7 @@ static void test_run_writes_outputs(void **state)
 int main(int argc, char **argv)
 {
     (void)argc;
-    char self[4096];
-    snprintf(self, sizeof self, "%s", argv[0]);
-    snprintf(tool, sizeof tool, "%s/tidelock", dirname(self));
+    snprintf(argv0, sizeof argv0, "%s", argv[0]);
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_bad_commands_and_options),
         cmocka_unit_test(test_unwritable_output),

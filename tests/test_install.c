@@ -18,12 +18,7 @@ static char build_dir[512];
 
 static int sh(const char *cmd, char *out, size_t cap)
 {
-    FILE *p = popen(cmd, "r");
-    assert_non_null(p);
-    size_t n = fread(out, 1, cap - 1, p);
-    out[n] = '\0';
-    const int st = pclose(p);
-    return WIFEXITED(st) ? WEXITSTATUS(st) : -1;
+    return tl_test_shell(cmd, out, cap);
 }
 
 static void test_install_tree_usable(void **state)

@@ -859,17 +859,12 @@ static void need_tool(void)
         fail_msg("%s is not built (the CLI tests run the tidelock next to this test)", tool);
 }
 
+static char argv0[4096];
+
 /* Run the tool; stderr+stdout into out; the exit status. */
 static int run_tool(const char *args, char *out, size_t cap)
 {
-    char cmd[8192];
-    snprintf(cmd, sizeof cmd, "%s %s 2>&1", tool, args);
-    FILE *p = popen(cmd, "r");
-    assert_non_null(p);
-    const size_t n = fread(out, 1, cap - 1, p);
-    out[n] = '\0';
-    const int st = pclose(p);
-    return WIFEXITED(st) ? WEXITSTATUS(st) : -1;
+    return tl_test_tool(argv0, args, out, cap);
 }
 
 static int dir_entries(const char *dir)
@@ -1005,6 +1000,7 @@ static void test_reals_round_trip_exactly(void **state)
 int main(int argc, char **argv)
 {
     (void)argc;
+    snprintf(argv0, sizeof argv0, "%s", argv[0]);
     char self[4096];
     snprintf(self, sizeof self, "%s", argv[0]);
     snprintf(tool, sizeof tool, "%s/tidelock", dirname(self));

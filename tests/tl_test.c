@@ -1,9 +1,12 @@
 /* tl_test.c - helpers shared by the cmocka tests (see tl_test.h). */
 #include "tl_test.h"
 
+#include <libgen.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
+#include <string.h>
+#include <sys/wait.h>
 
 uint64_t tl_test_seed(const char *test, uint64_t fallback)
 {
@@ -108,4 +111,22 @@ void tl_test_generated_matches(const char *path, int (*gen)(FILE *out), size_t m
                  path, first, n_gen, n_com);
     free(generated);
     free(committed);
+}
+
+int tl_test_shell(const char *cmd, char *out, size_t cap)
+{
+    FILE *p = popen(cmd, "r");
+    assert_non_null(p);
+    const size_t n = fread(out, 1, cap - 1, p);
+    out[n] = '\0';
+    const int st = pclose(p);
+    return WIFEXITED(st) ? WEXITSTATUS(st) : -1;
+}
+
+int tl_test_tool(const char *argv0, const char *args, char *out, size_t cap)
+{
+    char self[4096], cmd[8192];
+    snprintf(self, sizeof self, "%s", argv0);
+    snprintf(cmd, sizeof cmd, "%s/tidelock %s 2>&1", dirname(self), args);
+    return tl_test_shell(cmd, out, cap);
 }

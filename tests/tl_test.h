@@ -40,6 +40,15 @@ unsigned tl_test_push_all(tl_chain *c, const int16_t *in0, const int16_t *in1, s
  * "run make tables". */
 void tl_test_generated_matches(const char *path, int (*gen)(FILE *out), size_t min_bytes);
 
+/* Run a shell command; its stdout (and whatever the command redirects
+ * there) goes into out (cap bytes, NUL-terminated). Returns the exit status,
+ * or -1 if it did not exit normally. */
+int tl_test_shell(const char *cmd, char *out, size_t cap);
+
+/* Run the tidelock binary that sits next to this test binary (argv0) with
+ * `args`, stderr and stdout into out. Returns the exit status. */
+int tl_test_tool(const char *argv0, const char *args, char *out, size_t cap);
+
 /* Assert |a - b| <= tol with a message naming both values. */
 #define TL_ASSERT_NEAR(a, b, tol)                                                                                    \
     do {                                                                                                              \
