@@ -11,6 +11,12 @@ void tl_config_default(tl_config *cfg)
     cfg->fft_scale_mask = TL_FFT_SCALE_AUTO;
     cfg->rounding = (uint32_t)TL_ROUND_HALF_EVEN;
     cfg->det_shift = TL_DET_SHIFT_AUTO;
+    cfg->switch_steps = 0;
+    for (uint32_t i = 0; i < TL_MAX_SWITCH_STEPS; i++) {
+        cfg->switch_state[i] = (uint8_t)TL_STATE_ANTENNA;
+        cfg->switch_dwell[i] = 0;
+    }
+    cfg->switch_discard = 0;
 }
 
 uint32_t tl_config_det_shift(const tl_config *cfg)
@@ -44,7 +50,10 @@ static tl_status check_config(const tl_config *cfg)
 
 static void start_integration(tl_chain *c)
 {
-    tl_integrate_reset(&c->integ, c->cfg.points / 2u);
+    for (uint32_t s = 0; s < TL_STATES; s++)
+        tl_integrate_reset(&c->integ[s], c->cfg.points / 2u);
+    c->spectra = 0;
+    c->discarded = 0;
     c->stats = (tl_stats){ { 0 }, { 0 }, { { 0 } }, { 0 } };
     c->first_frame = 0;
     c->ready = 0;
@@ -59,6 +68,7 @@ static tl_status start(tl_chain *c)
             return st;
     }
     c->fill = 0;
+    tl_switch_reset(&c->sw);
     start_integration(c);
     return TL_OK;
 }
@@ -72,6 +82,9 @@ tl_status tl_chain_init(tl_chain *c, const tl_config *cfg, const uint8_t *taps_i
     if (st != TL_OK)
         return st;
     st = tl_fft_init(&c->fft, cfg->points, cfg->fft_scale_mask, (tl_rounding)cfg->rounding);
+    if (st != TL_OK)
+        return st;
+    st = tl_switch_init(&c->sw, cfg->switch_steps, cfg->switch_state, cfg->switch_dwell, cfg->switch_discard);
     if (st != TL_OK)
         return st;
     st = (taps_image == NULL) ? tl_taps_default(&c->taps) : tl_taps_load_image(&c->taps, taps_image, image_len);
@@ -119,6 +132,11 @@ tl_status tl_chain_reset(tl_chain *c)
     return start(c);
 }
 
+uint32_t tl_chain_state(const tl_chain *c)
+{
+    return (c != NULL && c->initialised == TL_CHAIN_MAGIC) ? tl_switch_state(&c->sw) : TL_STATE_ANTENNA;
+}
+
 int tl_chain_ready(const tl_chain *c)
 {
     return c != NULL && c->initialised == TL_CHAIN_MAGIC && c->ready != 0u;
@@ -138,12 +156,17 @@ static void copy_in(tl_chain *c, uint32_t input, const int16_t *src, uint32_t n)
     tl_count_add(&c->stats.adc_clips[input], clips);
 }
 
-/* A frame is complete on every input: filter, transform, detect, integrate. */
+/* A frame is complete on every input: filter, transform, detect, and
+ * integrate into the bank of the frame's switch state (unless the spectrum
+ * falls in the discard window after a change). */
 static void process_frame(tl_chain *c)
 {
     const uint32_t channels = c->cfg.points / 2u;
     const unsigned shift = (unsigned)c->cfg.det_shift;
     const tl_rounding mode = (tl_rounding)c->cfg.rounding;
+    const uint32_t state = tl_switch_state(&c->sw);
+    const int keep = tl_switch_keep(&c->sw);
+    tl_switch_advance(&c->sw);
     int have = 1;
     for (uint32_t i = 0; i < c->cfg.inputs; i++) {
         if (!tl_pfb_commit(&c->pfb[i], c->y, &c->stats.pfb_sat[i])) {
@@ -155,18 +178,24 @@ static void process_frame(tl_chain *c)
     c->frames++;
     if (!have)
         return;
-    if (c->integ.spectra == 0u)
+    if (c->spectra == 0u)
         c->first_frame = c->frames - 1u;
-    for (uint32_t i = 0; i < c->cfg.inputs; i++) {
-        tl_detect_power(c->X[i], channels, shift, mode, c->power);
-        tl_integrate_power(&c->integ, i, c->power);
+    c->spectra++;
+    if (keep) {
+        tl_integrator *it = &c->integ[state];
+        for (uint32_t i = 0; i < c->cfg.inputs; i++) {
+            tl_detect_power(c->X[i], channels, shift, mode, c->power);
+            tl_integrate_power(it, i, c->power);
+        }
+        if (c->cfg.inputs == 2u) {
+            tl_detect_cross(c->X[0], c->X[1], channels, shift, mode, c->cross_re, c->cross_im);
+            tl_integrate_cross(it, c->cross_re, c->cross_im);
+        }
+        it->spectra++;
+    } else {
+        c->discarded++;
     }
-    if (c->cfg.inputs == 2u) {
-        tl_detect_cross(c->X[0], c->X[1], channels, shift, mode, c->cross_re, c->cross_im);
-        tl_integrate_cross(&c->integ, c->cross_re, c->cross_im);
-    }
-    c->integ.spectra++;
-    if (c->integ.spectra >= c->cfg.integration)
+    if (c->spectra >= c->cfg.integration)
         c->ready = 1u;
 }
 
@@ -209,9 +238,14 @@ tl_status tl_chain_take(tl_chain *c, tl_product *out)
     if (!c->ready)
         return TL_E_EMPTY;
     const uint32_t channels = c->cfg.points / 2u;
+    const tl_integrator *ant = &c->integ[TL_STATE_ANTENNA];
+    const int two = c->cfg.inputs == 2u;
     out->arith_version = TL_ARITH_VERSION;
     out->index = c->index;
-    out->spectra = c->integ.spectra;
+    out->spectra = c->spectra;
+    out->antenna_spectra = ant->spectra;
+    out->discarded = c->discarded;
+    out->switch_steps = c->cfg.switch_steps;
     out->first_frame = c->first_frame;
     out->points = c->cfg.points;
     out->taps = c->cfg.taps;
@@ -227,14 +261,30 @@ tl_status tl_chain_take(tl_chain *c, tl_product *out)
     out->taps_crc = c->taps.crc;
     out->stats = c->stats;
     for (uint32_t i = 0; i < 4u; i++)
-        out->stats.acc_sat[i] = c->integ.sat_channels[i];
+        out->stats.acc_sat[i] = ant->sat_channels[i];
+    for (uint32_t s = 1; s < TL_STATES; s++) {
+        const tl_integrator *it = &c->integ[s];
+        tl_cal_sums *cs = &out->cal[s - 1u];
+        cs->spectra = it->spectra;
+        for (uint32_t i = 0; i < 4u; i++)
+            cs->acc_sat[i] = it->sat_channels[i];
+    }
     for (uint32_t k = 0; k < TL_MAX_CHANNELS; k++) {
         const int in = k < channels;
         for (uint32_t i = 0; i < TL_MAX_INPUTS; i++)
-            out->auto_power[i][k] = (in && i < c->cfg.inputs) ? c->integ.auto_sum[i][k] : 0u;
-        out->cross_re[k] = (in && c->cfg.inputs == 2u) ? c->integ.cross_re[k] : 0;
-        out->cross_im[k] = (in && c->cfg.inputs == 2u) ? c->integ.cross_im[k] : 0;
-        out->flags[k] = in ? c->integ.flags[k] : 0u;
+            out->auto_power[i][k] = (in && i < c->cfg.inputs) ? ant->auto_sum[i][k] : 0u;
+        out->cross_re[k] = (in && two) ? ant->cross_re[k] : 0;
+        out->cross_im[k] = (in && two) ? ant->cross_im[k] : 0;
+        out->flags[k] = in ? ant->flags[k] : 0u;
+        for (uint32_t s = 1; s < TL_STATES; s++) {
+            const tl_integrator *it = &c->integ[s];
+            tl_cal_sums *cs = &out->cal[s - 1u];
+            for (uint32_t i = 0; i < TL_MAX_INPUTS; i++)
+                cs->auto_power[i][k] = (in && i < c->cfg.inputs) ? it->auto_sum[i][k] : 0u;
+            cs->cross_re[k] = (in && two) ? it->cross_re[k] : 0;
+            cs->cross_im[k] = (in && two) ? it->cross_im[k] : 0;
+            cs->flags[k] = in ? it->flags[k] : 0u;
+        }
     }
     c->index++;
     start_integration(c);

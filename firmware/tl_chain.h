@@ -32,6 +32,7 @@
 #include "tl_limits.h"
 #include "tl_pfb.h"
 #include "tl_status.h"
+#include "tl_switch.h"
 #include "tl_taps.h"
 
 #define TL_DET_SHIFT_AUTO 0xFFFFFFFFu /* ceil(log2(integration)): no sum can overflow */
@@ -46,6 +47,10 @@ typedef struct tl_config {
     uint32_t fft_scale_mask;  /* see tl_fft.h; TL_FFT_SCALE_AUTO for the default */
     uint32_t rounding;        /* tl_rounding for every rounding point */
     uint32_t det_shift;       /* 0 .. TL_MAX_DET_SHIFT, or TL_DET_SHIFT_AUTO */
+    uint32_t switch_steps;    /* calibration switch sequence (tl_switch.h): 0 = antenna only */
+    uint8_t switch_state[TL_MAX_SWITCH_STEPS];  /* TL_STATE_* per step */
+    uint32_t switch_dwell[TL_MAX_SWITCH_STEPS]; /* frames (spectra) per step */
+    uint32_t switch_discard;  /* spectra not integrated after each change of state */
 } tl_config;
 
 /* Counters of one integration. Counts saturate at UINT32_MAX. */
@@ -56,11 +61,27 @@ typedef struct tl_stats {
     uint32_t acc_sat[4];                 /* channels whose sum saturated: auto0, auto1, cross re, cross im */
 } tl_stats;
 
-/* A finished integration. The caller owns it (about 270 kB at host maxima). */
+/* Sums of one calibration state (reference load, or load plus noise source). */
+typedef struct tl_cal_sums {
+    uint32_t spectra;                                    /* spectra integrated in this state */
+    uint32_t acc_sat[4];                                 /* saturated channels, as tl_stats.acc_sat */
+    uint64_t auto_power[TL_MAX_INPUTS][TL_MAX_CHANNELS];
+    int64_t cross_re[TL_MAX_CHANNELS];
+    int64_t cross_im[TL_MAX_CHANNELS];
+    uint8_t flags[TL_MAX_CHANNELS];
+} tl_cal_sums;
+
+/* A finished integration. The caller owns it (about 810 kB at host maxima).
+ * auto_power, cross_re, cross_im and flags are the ANTENNA state's sums
+ * (antenna_spectra of them); with switching, cal[0] holds the reference
+ * load's and cal[1] the load plus noise source's. */
 typedef struct tl_product {
     uint32_t arith_version;   /* TL_ARITH_VERSION */
     uint32_t index;           /* integration number since init, from 0 */
-    uint32_t spectra;         /* spectra integrated (= config integration) */
+    uint32_t spectra;         /* spectra in the integration (= config integration), all states */
+    uint32_t antenna_spectra; /* of them integrated into auto_power / cross (antenna state) */
+    uint32_t discarded;       /* of them dropped after switch changes */
+    uint32_t switch_steps;    /* 0: no switching */
     uint64_t first_frame;     /* frame number (N samples each, from 0) of the first spectrum's newest frame */
     uint32_t points, taps, inputs, channels;
     uint32_t fft_stages;      /* radix stages, so fft_sat[.][fft_stages] is the split */
@@ -76,6 +97,7 @@ typedef struct tl_product {
     int64_t cross_re[TL_MAX_CHANNELS];                   /* sum of round(Re X conj Y / 2^det_shift) */
     int64_t cross_im[TL_MAX_CHANNELS];
     uint8_t flags[TL_MAX_CHANNELS];                      /* TL_FLAG_* per channel */
+    tl_cal_sums cal[TL_STATES - 1u];                     /* [0] load, [1] load + noise source */
 } tl_product;
 
 typedef struct tl_chain {
@@ -91,7 +113,10 @@ typedef struct tl_chain {
     tl_taps taps;
     tl_pfb pfb[TL_MAX_INPUTS];
     tl_fft fft;
-    tl_integrator integ;
+    tl_switch sw;
+    uint32_t spectra;         /* spectra in the running integration, all states */
+    uint32_t discarded;       /* of them dropped after switch changes */
+    tl_integrator integ[TL_STATES]; /* one bank per switch state */
     int32_t y[TL_MAX_POINTS];
     int32_t X[TL_MAX_INPUTS][TL_MAX_POINTS];
     uint64_t power[TL_MAX_CHANNELS];
@@ -103,7 +128,7 @@ typedef struct tl_chain {
 
 /* Defaults: 8192 points, 4 taps, 2 inputs, 14-bit ADC, 2^20 spectra per
  * integration (about 84 s at 102.4 Msample/s), default FFT scaling,
- * round half to even, automatic detection shift. */
+ * round half to even, automatic detection shift, no switching. */
 void tl_config_default(tl_config *cfg);
 
 /* Resolve TL_FFT_SCALE_AUTO and TL_DET_SHIFT_AUTO as init would. */
@@ -112,7 +137,7 @@ uint32_t tl_config_det_shift(const tl_config *cfg);
 /* Check every field of cfg, then start the chain with the coefficient table
  * image `taps_image` (or the built-in default when it is NULL). Returns
  * TL_OK, TL_E_NULL, TL_E_POINTS, TL_E_TAPS, TL_E_INPUTS, TL_E_ADC_BITS,
- * TL_E_INTEGRATION, TL_E_SCALING, TL_E_ROUNDING, TL_E_DET_SHIFT, any error of
+ * TL_E_INTEGRATION, TL_E_SCALING, TL_E_ROUNDING, TL_E_DET_SHIFT, TL_E_SWITCH, any error of
  * tl_taps_load_image, or TL_E_TABLE_MISMATCH (table taps/points differ from
  * cfg). On error the context is left marked uninitialised. */
 tl_status tl_chain_init(tl_chain *c, const tl_config *cfg, const uint8_t *taps_image, size_t image_len);
@@ -131,6 +156,10 @@ tl_status tl_chain_reset(tl_chain *c);
  * tl_chain_ready), TL_E_BUSY (a product waits; nothing consumed), TL_E_NULL,
  * TL_E_NOT_INIT. */
 tl_status tl_chain_push(tl_chain *c, const int16_t *in0, const int16_t *in1, size_t count, size_t *used);
+
+/* Switch state (TL_STATE_*) of the frame being received now: a host
+ * simulator asks before producing each frame's samples. */
+uint32_t tl_chain_state(const tl_chain *c);
 
 /* 1 when a finished integration waits to be taken. */
 int tl_chain_ready(const tl_chain *c);

@@ -22,6 +22,7 @@ const char *tl_status_name(tl_status st)
     case TL_E_BUSY: return "TL_E_BUSY";
     case TL_E_EMPTY: return "TL_E_EMPTY";
     case TL_E_NOT_INIT: return "TL_E_NOT_INIT";
+    case TL_E_SWITCH: return "TL_E_SWITCH";
     }
     return "TL_E_UNKNOWN";
 }
@@ -47,6 +48,7 @@ const char *tl_status_text(tl_status st)
     case TL_E_BUSY: return "a finished integration is waiting to be taken";
     case TL_E_EMPTY: return "no finished integration is waiting";
     case TL_E_NOT_INIT: return "context used before a successful init";
+    case TL_E_SWITCH: return "switch sequence needs 0 to 8 steps, states 0 to 2, dwells of at least 1 spectrum and a discard below every dwell";
     }
     return "unknown status";
 }

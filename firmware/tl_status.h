@@ -27,7 +27,8 @@ typedef enum tl_status {
     TL_E_TABLE_MISMATCH = 14, /* coefficient table taps/points differ from the configuration */
     TL_E_BUSY = 15,       /* a finished integration is waiting: take it before pushing more */
     TL_E_EMPTY = 16,      /* no finished integration to take */
-    TL_E_NOT_INIT = 17    /* context used before a successful init */
+    TL_E_NOT_INIT = 17,   /* context used before a successful init */
+    TL_E_SWITCH = 18      /* switch sequence: steps 0..8, state 0..2, dwell >= 1, discard below every dwell */
 } tl_status;
 
 /* Short constant name of a status ("TL_E_POINTS"); never NULL. */
