@@ -80,6 +80,32 @@ static void add_product(tl_product *t, const tl_product *p, int first)
         if (sat)
             t->flags[k] = (uint8_t)(t->flags[k] | TL_FLAG_SAT_CROSS_IM);
         t->flags[k] = (uint8_t)(t->flags[k] | p->flags[k]);
+        for (uint32_t b = 0; b + 1u < TL_STATES; b++) {
+            tl_cal_sums *tc = &t->cal[b];
+            const tl_cal_sums *pc = &p->cal[b];
+            for (uint32_t i = 0; i < p->inputs; i++) {
+                sat = 0;
+                tc->auto_power[i][k] = tl_sat_add_u64(tc->auto_power[i][k], pc->auto_power[i][k], &sat);
+                if (sat)
+                    tc->flags[k] = (uint8_t)(tc->flags[k] | (i == 0 ? TL_FLAG_SAT_AUTO0 : TL_FLAG_SAT_AUTO1));
+            }
+            sat = 0;
+            tc->cross_re[k] = tl_sat_add_s64(tc->cross_re[k], pc->cross_re[k], &sat);
+            if (sat)
+                tc->flags[k] = (uint8_t)(tc->flags[k] | TL_FLAG_SAT_CROSS_RE);
+            sat = 0;
+            tc->cross_im[k] = tl_sat_add_s64(tc->cross_im[k], pc->cross_im[k], &sat);
+            if (sat)
+                tc->flags[k] = (uint8_t)(tc->flags[k] | TL_FLAG_SAT_CROSS_IM);
+            tc->flags[k] = (uint8_t)(tc->flags[k] | pc->flags[k]);
+        }
+    }
+    t->antenna_spectra += p->antenna_spectra;
+    t->discarded += p->discarded;
+    for (uint32_t b = 0; b + 1u < TL_STATES; b++) {
+        t->cal[b].spectra += p->cal[b].spectra;
+        for (unsigned i = 0; i < 4; i++)
+            tl_count_add(&t->cal[b].acc_sat[i], p->cal[b].acc_sat[i]);
     }
 }
 
@@ -248,15 +274,24 @@ tl_status tl_fidelity_run(const tl_fid_setup *su, tl_fid_result *res)
     }
     st = TL_OK;
     const int two = cfg.inputs == 2u;
+    /* the harness follows the firmware's sequence for the reference */
+    tl_switch sw;
+    if ((st = tl_switch_init(&sw, cfg.switch_steps, cfg.switch_state, cfg.switch_dwell, cfg.switch_discard)) != TL_OK)
+        goto out;
     for (uint32_t j = 0; j < J;) {
+        const uint32_t sw_state = tl_switch_state(&sw);
+        const int sw_keep = tl_switch_keep(&sw);
+        tl_switch_advance(&sw);
+        if (su->set_state != NULL)
+            su->set_state(su->source_state, sw_state);
         su->source(su->source_state, in0, two ? in1 : NULL, N);
         size_t used = 0;
         if ((st = tl_chain_push(chA, in0, two ? in1 : NULL, N, &used)) != TL_OK)
             goto out;
         if ((st = tl_chain_push(chB, in0, two ? in1 : NULL, N, &used)) != TL_OK)
             goto out;
-        tl_ref_push_frame(refq, in0, in1);
-        tl_ref_push_frame(refi, in0, in1);
+        tl_ref_push_frame_state(refq, in0, in1, sw_state, sw_keep);
+        tl_ref_push_frame_state(refi, in0, in1, sw_state, sw_keep);
         if (!tl_chain_ready(chA))
             continue;
         tl_chain_take(chA, prod);
@@ -269,6 +304,10 @@ tl_status tl_fidelity_run(const tl_fid_setup *su, tl_fid_result *res)
         store_product(&fb, j, prod);
         tl_ref_take(refq, at(&rq, 0, j), at(&rq, 1, j), at(&rq, 2, j), at(&rq, 3, j));
         tl_ref_take(refi, at(&ri, 0, j), at(&ri, 1, j), at(&ri, 2, j), at(&ri, 3, j));
+        for (unsigned b = 1; b < TL_STATES; b++) { /* calibration states: not part of the fidelity figures */
+            tl_ref_take_state(refq, b, NULL, NULL, NULL, NULL);
+            tl_ref_take_state(refi, b, NULL, NULL, NULL, NULL);
+        }
         j++;
         if (su->progress != NULL)
             su->progress(su->progress_ctx, j, J);
@@ -294,11 +333,13 @@ tl_status tl_fidelity_run(const tl_fid_setup *su, tl_fid_result *res)
         double s = 0.0;
         for (uint32_t k = su->band_lo; k < su->band_hi; k++)
             s += total(&rq, (int)i, k, 1.0);
-        res->mean_power_lsb2[i] = s / (su->band_hi - su->band_lo) / M * ldexp(1.0, (int)sA);
+        res->mean_power_lsb2[i] = s / (su->band_hi - su->band_lo) / res->product.antenna_spectra * ldexp(1.0, (int)sA);
     }
     tl_noise_prediction npB;
     tl_noise_predict(N, chA->fft.scale_mask, (tl_rounding)cfg.rounding, tq->shift - 15u, sB, &npB);
     const double rscaleB = ldexp(1.0, (int)sA - (int)sB);
+    /* with switching only the antenna's spectra are in the compared sums */
+    const uint32_t Ma = res->product.antenna_spectra;
     for (int p = 0; p < TL_FID_PRODUCTS; p++) {
         if (!two && p != TL_FID_AUTO0)
             continue;
@@ -306,10 +347,10 @@ tl_status tl_fidelity_run(const tl_fid_setup *su, tl_fid_result *res)
         /* expected firmware-minus-reference per spectrum, firmware units */
         const double eA = (is_auto ? np.total_noise : 0.0) * ldexp(1.0, -(int)sA) + np.det_mean * ldexp(1.0, -(int)sA);
         const double eB = (is_auto ? npB.total_noise : 0.0) * ldexp(1.0, -(int)sB) + npB.det_mean * ldexp(1.0, -(int)sB);
-        metrics(&fa, &rq, 1.0, p, su->band_lo, su->band_hi, M, eA, tw_gain, &res->main[p]);
-        ideal_metrics(&fa, &ri, p, su->band_lo, su->band_hi, M, &res->main[p]);
+        metrics(&fa, &rq, 1.0, p, su->band_lo, su->band_hi, Ma, eA, tw_gain, &res->main[p]);
+        ideal_metrics(&fa, &ri, p, su->band_lo, su->band_hi, Ma, &res->main[p]);
         if (flight) {
-            metrics(&fb, &rq, rscaleB, p, su->band_lo, su->band_hi, M, eB, tw_gain, &res->flight[p]);
+            metrics(&fb, &rq, rscaleB, p, su->band_lo, su->band_hi, Ma, eB, tw_gain, &res->flight[p]);
             /* Both passes see identical FFT outputs; they differ only in the
              * detection shift, whose mean rounding error is analytic (and the
              * flight pass must agree with it). Bias at M': the precisely

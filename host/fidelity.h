@@ -2,6 +2,11 @@
  * fidelity.h - how far the firmware's integrated spectra are from the
  * floating-point reference, in units of the radiometer noise.
  *
+ * With a switch sequence in the configuration, the source is told the
+ * firmware's switch state before each frame, the reference integrates each
+ * state as the firmware does, and the fidelity figures are those of the
+ * antenna state.
+ *
  * One run feeds the same ADC samples to the firmware chain (tl_chain), to a
  * second firmware chain whose detection shift is the one a long integration
  * needs (the "flight" pass, used for extrapolation), and to two double
@@ -59,6 +64,8 @@ typedef struct tl_fid_setup {
     uint32_t flight_spectra;  /* M' for the flight pass and extrapolation; 0: no flight pass */
     tl_fid_source source;
     void *source_state;
+    void (*set_state)(void *source_state, uint32_t sw_state); /* before each frame: the switch state
+                                                                  the firmware is in (may be NULL) */
     void (*progress)(void *ctx, uint32_t done, uint32_t total); /* per block; may be NULL */
     void *progress_ctx;
 } tl_fid_setup;

@@ -16,8 +16,8 @@ struct tl_ref {
     fftw_plan plan;
     double *X[2];          /* last spectrum per input, firmware units, interleaved */
     double xscale, pscale; /* 2^-T and 2^-s */
-    double *acc[4];        /* auto0, auto1, cross re, cross im */
-    uint32_t spectra;
+    double *acc[3][4];     /* per switch state: auto0, auto1, cross re, cross im */
+    uint32_t spectra[3];
 };
 
 tl_ref *tl_ref_open(const double *coef, uint32_t taps, uint32_t points, uint32_t coef_shift, uint32_t inputs,
@@ -41,10 +41,11 @@ tl_ref *tl_ref_open(const double *coef, uint32_t taps, uint32_t points, uint32_t
         r->X[i] = calloc(points, sizeof(double));
         ok = ok && r->hist[i] && r->X[i];
     }
-    for (int i = 0; i < 4; i++) {
-        r->acc[i] = calloc(r->channels, sizeof(double));
-        ok = ok && r->acc[i];
-    }
+    for (int b = 0; b < 3; b++)
+        for (int i = 0; i < 4; i++) {
+            r->acc[b][i] = calloc(r->channels, sizeof(double));
+            ok = ok && r->acc[b][i];
+        }
     if (!ok) {
         tl_ref_close(r);
         return NULL;
@@ -72,13 +73,21 @@ void tl_ref_close(tl_ref *r)
         free(r->hist[i]);
         free(r->X[i]);
     }
-    for (int i = 0; i < 4; i++)
-        free(r->acc[i]);
+    for (int b = 0; b < 3; b++)
+        for (int i = 0; i < 4; i++)
+            free(r->acc[b][i]);
     free(r);
 }
 
 int tl_ref_push_frame(tl_ref *r, const int16_t *in0, const int16_t *in1)
 {
+    return tl_ref_push_frame_state(r, in0, in1, 0u, 1);
+}
+
+int tl_ref_push_frame_state(tl_ref *r, const int16_t *in0, const int16_t *in1, unsigned bank, int keep)
+{
+    if (bank > 2u)
+        bank = 0u;
     const uint32_t P = r->taps, N = r->points;
     r->newest = (r->newest + 1u) % P;
     const int16_t *src[2] = { in0, in1 };
@@ -104,33 +113,44 @@ int tl_ref_push_frame(tl_ref *r, const int16_t *in0, const int16_t *in1)
             r->X[i][2u * k + 1u] = r->spec[k][1] * r->xscale;
         }
     }
+    if (!keep)
+        return 1;
+    double *const *acc = r->acc[bank];
     for (uint32_t i = 0; i < r->inputs; i++) {
         const double *X = r->X[i];
         for (uint32_t k = 0; k < r->channels; k++)
-            r->acc[i][k] += (X[2u * k] * X[2u * k] + X[2u * k + 1u] * X[2u * k + 1u]) * r->pscale;
+            acc[i][k] += (X[2u * k] * X[2u * k] + X[2u * k + 1u] * X[2u * k + 1u]) * r->pscale;
     }
     if (r->inputs == 2u) {
         const double *X = r->X[0], *Y = r->X[1];
         for (uint32_t k = 0; k < r->channels; k++) {
             const double xr = X[2u * k], xi = X[2u * k + 1u], yr = Y[2u * k], yi = Y[2u * k + 1u];
-            r->acc[2][k] += (xr * yr + xi * yi) * r->pscale;
-            r->acc[3][k] += (xi * yr - xr * yi) * r->pscale;
+            acc[2][k] += (xr * yr + xi * yi) * r->pscale;
+            acc[3][k] += (xi * yr - xr * yi) * r->pscale;
         }
     }
-    r->spectra++;
+    r->spectra[bank]++;
     return 1;
 }
 
 uint32_t tl_ref_take(tl_ref *r, double *auto0, double *auto1, double *cross_re, double *cross_im)
 {
+    return tl_ref_take_state(r, 0u, auto0, auto1, cross_re, cross_im);
+}
+
+uint32_t tl_ref_take_state(tl_ref *r, unsigned bank, double *auto0, double *auto1, double *cross_re,
+                           double *cross_im)
+{
+    if (bank > 2u)
+        return 0;
     double *dst[4] = { auto0, auto1, cross_re, cross_im };
     for (int i = 0; i < 4; i++) {
         if (dst[i] != NULL)
-            memcpy(dst[i], r->acc[i], sizeof(double) * r->channels);
-        memset(r->acc[i], 0, sizeof(double) * r->channels);
+            memcpy(dst[i], r->acc[bank][i], sizeof(double) * r->channels);
+        memset(r->acc[bank][i], 0, sizeof(double) * r->channels);
     }
-    const uint32_t m = r->spectra;
-    r->spectra = 0;
+    const uint32_t m = r->spectra[bank];
+    r->spectra[bank] = 0;
     return m;
 }
 

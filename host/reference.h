@@ -30,9 +30,16 @@ void tl_ref_close(tl_ref *r);
  * when a spectrum was produced and accumulated, 0 while filling history. */
 int tl_ref_push_frame(tl_ref *r, const int16_t *in0, const int16_t *in1);
 
+/* The same, for a switched sequence: the spectrum goes into the sums of
+ * switch state `bank` (0 .. 2) if keep is 1, and is dropped if keep is 0. */
+int tl_ref_push_frame_state(tl_ref *r, const int16_t *in0, const int16_t *in1, unsigned bank, int keep);
+
 /* Copy the sums (channels = N/2 values each; pointers for absent products
- * may be NULL), zero them, and return the number of spectra they hold. */
+ * may be NULL), zero them, and return the number of spectra they hold.
+ * tl_ref_take is bank 0 (the antenna). */
 uint32_t tl_ref_take(tl_ref *r, double *auto0, double *auto1, double *cross_re, double *cross_im);
+uint32_t tl_ref_take_state(tl_ref *r, unsigned bank, double *auto0, double *auto1, double *cross_re,
+                           double *cross_im);
 
 /* The last spectrum, in firmware units (re/im interleaved, N/2 channels). */
 const double *tl_ref_last_spectrum(const tl_ref *r, uint32_t input);
