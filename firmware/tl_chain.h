@@ -5,7 +5,7 @@
  *   (64-bit, rounded shift) --> tl_integrate (64-bit sums) --> tl_product
  *
  * Use:
- *     static tl_chain chain;             // caller owns it (about 1.9 MB at host maxima)
+ *     static tl_chain chain;             // caller owns it (about 3.5 MB at host maxima)
  *     tl_config cfg; tl_config_default(&cfg); cfg.integration = 4096;
  *     st = tl_chain_init(&chain, &cfg, NULL, 0);   // NULL: built-in table
  *     while (samples left) {
