@@ -160,7 +160,7 @@ int tl_fit_trough(const double *f_hz, const double *y, const double *sigma, uint
                   tl_trough_fit *out)
 {
     memset(out, 0, sizeof *out);
-    if (n < order + 8u || order + 2u > MAXP || !(c_hi > c_lo) || !(w_hi >= w_lo) || !(w_lo > 0.0))
+    if (n < order + 8u || order + 4u > MAXP || !(c_hi > c_lo) || !(w_hi >= w_lo) || !(w_lo > 0.0))
         return -1;
     const fit_data d = { f_hz, y, sigma, n, f0_hz, order, flatness };
     /* coarse grid: 200 centres x 12 widths (log-spaced) */
@@ -177,40 +177,68 @@ int tl_fit_trough(const double *f_hz, const double *y, const double *sigma, uint
             }
         }
     }
-    /* refine the centre by golden-section search within one grid step */
-    const double step = (c_hi - c_lo) / 200.0;
-    double a = bc - step, b = bc + step;
+    /* refine centre and width together: alternate golden-section searches,
+     * the centre within one grid step, the width within one grid ratio */
+    const double step = (c_hi - c_lo) / 200.0, ratio = pow(w_hi / w_lo, 1.0 / 11.0);
     const double g = (sqrt(5.0) - 1.0) / 2.0;
-    for (int it = 0; it < 60; it++) {
-        const double x1 = b - g * (b - a), x2 = a + g * (b - a);
-        if (fit_at(&d, x1, bw, 1, NULL, NULL) < fit_at(&d, x2, bw, 1, NULL, NULL))
-            b = x2;
-        else
-            a = x1;
+    for (int round = 0; round < 4; round++) {
+        double a = bc - step, b = bc + step;
+        for (int it = 0; it < 40; it++) {
+            const double x1 = b - g * (b - a), x2 = a + g * (b - a);
+            if (fit_at(&d, x1, bw, 1, NULL, NULL) < fit_at(&d, x2, bw, 1, NULL, NULL))
+                b = x2;
+            else
+                a = x1;
+        }
+        bc = 0.5 * (a + b);
+        a = log(bw / ratio);
+        b = log(bw * ratio);
+        for (int it = 0; it < 40; it++) {
+            const double x1 = b - g * (b - a), x2 = a + g * (b - a);
+            if (fit_at(&d, bc, exp(x1), 1, NULL, NULL) < fit_at(&d, bc, exp(x2), 1, NULL, NULL))
+                b = x2;
+            else
+                a = x1;
+        }
+        bw = exp(0.5 * (a + b));
     }
-    bc = 0.5 * (a + b);
     double depth = 0.0, dsig = 0.0;
     best = fit_at(&d, bc, bw, 1, &depth, &dsig);
-    /* centre error: where chi^2 rises by 1 on each side (bisection) */
-    double half[2];
-    for (int side = 0; side < 2; side++) {
-        double lo = 0.0, hi = step;
-        while (hi < (c_hi - c_lo) && fit_at(&d, bc + (side ? hi : -hi), bw, 1, NULL, NULL) < best + 1.0)
-            hi *= 2.0;
-        for (int it = 0; it < 50; it++) {
-            const double mid = 0.5 * (lo + hi);
-            if (fit_at(&d, bc + (side ? mid : -mid), bw, 1, NULL, NULL) < best + 1.0)
-                lo = mid;
-            else
-                hi = mid;
+    /* marginal errors: the Gauss-Newton covariance (J^T W J)^-1 over all
+     * parameters (foreground, depth, centre, width) at the best fit, so the
+     * correlation of depth with width and centre is included */
+    const unsigned nf = order + 1u, m = nf + 3u;
+    double F[MAXP][MAXP] = { { 0 } }, cov[MAXP][MAXP], dummy_b[MAXP] = { 0 }, dummy_x[MAXP];
+    for (uint32_t i = 0; i < n; i++) {
+        double jrow[MAXP];
+        const double lf = log(f_hz[i] / f0_hz), pl = pow(f_hz[i] / f0_hz, -2.5), wgt = 1.0 / (sigma[i] * sigma[i]);
+        double lp = 1.0;
+        for (unsigned j = 0; j < nf; j++) {
+            jrow[j] = pl * lp;
+            lp *= lf;
         }
-        half[side] = 0.5 * (lo + hi);
+        const double u = fabs(2.0 * (f_hz[i] - bc) / bw);
+        const double gg = trough_shape(f_hz[i], bc, bw, flatness);
+        const double dg_du = (u > 0.0) ? -gg * M_LN2 * 2.0 * flatness * pow(u, 2.0 * flatness - 1.0) : 0.0;
+        const double du_dc = (f_hz[i] > bc ? -2.0 : 2.0) / bw, du_dw = -u / bw;
+        jrow[nf] = -gg;
+        jrow[nf + 1u] = -depth * dg_du * du_dc;
+        jrow[nf + 2u] = -depth * dg_du * du_dw;
+        for (unsigned r = 0; r < m; r++)
+            for (unsigned q = 0; q < m; q++)
+                F[r][q] += wgt * jrow[r] * jrow[q];
+    }
+    if (m <= MAXP && solve(F, dummy_b, m, cov, dummy_x) == 0 && cov[nf][nf] > 0.0 && cov[nf + 1u][nf + 1u] > 0.0) {
+        dsig = sqrt(cov[nf][nf]);
+        out->centre_sigma = sqrt(cov[nf + 1u][nf + 1u]);
+        out->width_sigma = sqrt(cov[nf + 2u][nf + 2u]);
+    } else {
+        dsig = 0.0;
     }
     out->ok = isfinite(best) && dsig > 0.0;
     out->depth = depth;
     out->depth_sigma = dsig;
     out->centre = bc;
-    out->centre_sigma = 0.5 * (half[0] + half[1]);
     out->width = bw;
     out->chi2 = best;
     out->dof = (double)n - (order + 1.0) - 3.0;

@@ -40,14 +40,15 @@ double tl_calibrate_model(double t_ant_state, double t_load_state, double t_ns_s
 /* Fit y(f) = (f/f0)^-2.5 sum_{i=0}^{order} a_i ln(f/f0)^i - A g(f; c, w, q)
  * with g = exp(-ln2 |2 (f - c) / w|^(2q)) (q = 1 Gaussian, larger q flat-
  * bottomed; w = full width at half depth), weights 1/sigma^2, over n points.
- * For each (c, w) on a grid the model is linear (weighted least squares);
- * the best grid point is refined and the errors of A and c come from the
- * covariance and from delta chi^2 = 1. */
+ * For each (c, w) the model is linear (weighted least squares); the best
+ * point of a (c, w) grid is refined by alternating golden-section searches,
+ * and the errors are marginal: the Gauss-Newton covariance (J^T W J)^-1 over
+ * all parameters at the best fit. Foreground order at most 8. */
 typedef struct tl_trough_fit {
     int ok;
     double depth, depth_sigma;        /* A, K */
     double centre, centre_sigma;      /* c, Hz */
-    double width;                     /* w, Hz (best on the grid) */
+    double width, width_sigma;        /* w, Hz */
     double chi2, dof;                 /* at the best fit */
     double significance;              /* depth / depth_sigma */
     double chi2_no_trough;            /* foreground alone, for comparison */

@@ -71,6 +71,27 @@ void tl_report_print(FILE *out, const tl_scenario *s, const tl_run_result *r)
     const tl_fid_metrics *a = &f->main[TL_FID_AUTO0];
     fprintf(out, "  bias bound |b|+2se reaches 0.01 of the noise after %.3g spectra (%.3g hours of co-adding)\n",
             a->m_reach, hours_of(s, a->m_reach));
+    if (r->cal.done) {
+        const tl_cal_report *cr = &r->cal;
+        const tl_product *p = &f->product;
+        fprintf(out, "calibration (two-point: load %.1f K, load + noise source %.1f K; spectra antenna %u, load %u, "
+                     "noise %u, discarded %u):\n",
+                s->sky.load_k, s->sky.load_k + s->sky.noise_excess_k, p->antenna_spectra, p->cal[0].spectra,
+                p->cal[1].spectra, p->discarded);
+        for (uint32_t i = 0; i < p->inputs; i++) {
+            const uint32_t mid = f->band_lo + (f->band_hi - f->band_lo) / 2u;
+            fprintf(out, "  input %u: calibrated vs model over %u channels: chi2/channel %.3f, beyond 3 sigma %u "
+                         "(%.2f%%, Gaussian 0.27%%); at %.3f MHz %.1f +- %.1f K (model %.1f K)\n",
+                    i, cr->channels, cr->chi2_red[i], cr->beyond3[i], 100.0 * cr->beyond3[i] / cr->channels,
+                    mid * df / 1e6, cr->t_ant[i][mid], cr->sigma[i][mid], cr->t_model[mid]);
+            if (cr->fit[i].ok)
+                fprintf(out, "  input %u: trough fit: depth %.4g +- %.2g K (%.1f sigma; model %.4g K), centre %.3f +- "
+                             "%.3f MHz (model %.3f MHz), chi2/dof %.3f\n",
+                        i, cr->fit[i].depth, cr->fit[i].depth_sigma, cr->fit[i].significance, s->sky.trough_depth_k,
+                        cr->fit[i].centre / 1e6, cr->fit[i].centre_sigma / 1e6, s->sky.trough_centre_hz / 1e6,
+                        cr->fit[i].chi2 / cr->fit[i].dof);
+        }
+    }
     char why[4096];
     const int fails = tl_fidelity_verdict(f, why, sizeof why);
     if (fails == 0)
@@ -152,6 +173,27 @@ int tl_report_write_json(const char *path, const tl_scenario *s, const tl_run_re
         if (f->main[p].present)
             json_object_set_new(fid, tl_fidelity_product_name(p), metrics_json(&f->main[p], f->margin_ext[p]));
     json_object_set_new(root, "fidelity", fid);
+    if (r->cal.done) {
+        const tl_cal_report *cr = &r->cal;
+        json_t *cal = json_object();
+        json_object_set_new(cal, "load_k", json_real(s->sky.load_k));
+        json_object_set_new(cal, "noise_excess_k", json_real(s->sky.noise_excess_k));
+        json_object_set_new(cal, "radiometer_factor", json_real(cr->radiometer_factor));
+        json_t *ins = json_array();
+        for (uint32_t i = 0; i < f->product.inputs; i++) {
+            json_t *o = json_pack("{s:f, s:i, s:i}", "chi2_per_channel", cr->chi2_red[i], "channels",
+                                  (json_int_t)cr->channels, "beyond_3_sigma", (json_int_t)cr->beyond3[i]);
+            if (cr->fit[i].ok)
+                json_object_set_new(o, "trough_fit",
+                                    json_pack("{s:f, s:f, s:f, s:f, s:f, s:f}", "depth_k", cr->fit[i].depth,
+                                              "depth_sigma_k", cr->fit[i].depth_sigma, "centre_hz", cr->fit[i].centre,
+                                              "centre_sigma_hz", cr->fit[i].centre_sigma, "significance",
+                                              cr->fit[i].significance, "chi2_per_dof", cr->fit[i].chi2 / cr->fit[i].dof));
+            json_array_append_new(ins, o);
+        }
+        json_object_set_new(cal, "inputs", ins);
+        json_object_set_new(root, "calibration", cal);
+    }
     char why[4096];
     const int fails = tl_fidelity_verdict(f, why, sizeof why);
     json_object_set_new(root, "verdict", json_pack("{s:s, s:i, s:s}", "result", fails ? "FAIL" : "PASS", "failures",

@@ -5,12 +5,66 @@
 #include <stdlib.h>
 #include <string.h>
 #include <time.h>
+#include "sky_model.h"
 #include "sky_noise.h"
 #include "taps_design.h"
 
 static void sky_source(void *state, int16_t *in0, int16_t *in1, size_t n)
 {
     tl_sky_fill((tl_sky *)state, in0, in1, n);
+}
+
+static void sky_state(void *state, uint32_t sw_state)
+{
+    tl_sky_set_state((tl_sky *)state, sw_state);
+}
+
+int tl_run_calibrate(const tl_scenario *s, const tl_product *p, tl_cal_report *c)
+{
+    memset(c, 0, sizeof *c);
+    tl_taps *t = malloc(sizeof *t);
+    if (t == NULL)
+        return -1;
+    if (tl_taps_design(s->window, s->cfg.taps, s->cfg.points, t, NULL) != 0) {
+        free(t);
+        return -1;
+    }
+    c->radiometer_factor = tl_radiometer_factor(t, p->antenna_spectra > 0 ? p->antenna_spectra : 1u);
+    free(t);
+    const double t_load = s->sky.load_k, t_ns = s->sky.noise_excess_k;
+    for (uint32_t i = 0; i < p->inputs; i++)
+        if (tl_calibrate(p, i, t_load, t_ns, c->radiometer_factor, c->t_ant[i], c->sigma[i]) != 0)
+            return -1;
+    uint32_t lo, hi;
+    tl_scenario_band(s, &lo, &hi);
+    const double df = tl_scenario_channel_hz(s);
+    for (uint32_t k = 0; k < p->channels; k++) {
+        const double f = k * df;
+        c->t_model[k] = tl_calibrate_model(tl_sky_temperature_state(&s->sky, 0, f),
+                                           tl_sky_temperature_state(&s->sky, 1, f),
+                                           tl_sky_temperature_state(&s->sky, 2, f), t_load, t_ns);
+    }
+    c->channels = hi - lo;
+    static double fk[TL_MAX_CHANNELS];
+    for (uint32_t i = 0; i < p->inputs; i++) {
+        double chi2 = 0.0;
+        for (uint32_t k = lo; k < hi; k++) {
+            const double z = (c->t_ant[i][k] - c->t_model[k]) / c->sigma[i][k];
+            chi2 += z * z;
+            c->beyond3[i] += fabs(z) > 3.0;
+        }
+        c->chi2_red[i] = chi2 / c->channels;
+        if (s->sky.trough_depth_k > 0.0) {
+            for (uint32_t k = lo; k < hi; k++)
+                fk[k - lo] = k * df;
+            const double w = s->sky.trough_width_hz;
+            tl_fit_trough(fk, &c->t_ant[i][lo], &c->sigma[i][lo], hi - lo, 0.5 * (fk[0] + fk[hi - lo - 1u]),
+                          s->fit_order, s->sky.trough_flatness, fk[0] + w / 2.0, fk[hi - lo - 1u] - w / 2.0, 0.5 * w,
+                          2.0 * w, &c->fit[i]);
+        }
+    }
+    c->done = 1;
+    return 0;
 }
 
 tl_status tl_run_scenario(const tl_scenario *s, tl_run_result *r, void (*progress)(void *, uint32_t, uint32_t),
@@ -58,7 +112,10 @@ tl_status tl_run_scenario(const tl_scenario *s, tl_run_result *r, void (*progres
     su.flight_spectra = s->flight_spectra;
     su.source = sky_source;
     su.source_state = sky;
-    const tl_status st = tl_fidelity_run(&su, &r->fid);
+    su.set_state = s->cfg.switch_steps > 0 ? sky_state : NULL;
+    tl_status st = tl_fidelity_run(&su, &r->fid);
+    if (st == TL_OK && s->cfg.switch_steps > 0u && tl_run_calibrate(s, &r->fid.product, &r->cal) != 0)
+        st = TL_E_SWITCH; /* a state never integrated: the sequence cannot calibrate */
     r->generator_clips[0] = tl_sky_clipped(sky, 0);
     r->generator_clips[1] = tl_sky_clipped(sky, 1);
     tl_sky_close(sky);

@@ -8,11 +8,32 @@
 #include "fidelity.h"
 #include "scenario.h"
 
+#include "calibrate.h"
+
+/* With a switch sequence: the calibrated antenna temperature of each input
+ * against the model's, over the science band (channels [band_lo, band_hi)). */
+typedef struct tl_cal_report {
+    int done;                                 /* 1 when the scenario switches */
+    double t_ant[TL_MAX_INPUTS][TL_MAX_CHANNELS];   /* calibrated, K (NAN where undefined) */
+    double sigma[TL_MAX_INPUTS][TL_MAX_CHANNELS];   /* its propagated noise, K */
+    double t_model[TL_MAX_CHANNELS];                /* the model's antenna temperature, K */
+    double chi2_red[TL_MAX_INPUTS];           /* sum ((t_ant - t_model) / sigma)^2 / channels */
+    uint32_t channels;                        /* channels in the comparison */
+    uint32_t beyond3[TL_MAX_INPUTS];          /* of them, |t_ant - t_model| > 3 sigma */
+    tl_trough_fit fit[TL_MAX_INPUTS];         /* foreground + trough fit (when the model has a trough) */
+    double radiometer_factor;
+} tl_cal_report;
+
 typedef struct tl_run_result {
     tl_fid_result fid;
     uint64_t generator_clips[2];  /* samples the sky generator clipped, per input */
     double seconds;               /* wall time of the run */
+    tl_cal_report cal;
 } tl_run_result;
+
+/* Calibrate a switched product against the scenario's model (tl_run_scenario
+ * calls it). Returns 0, or -1 when a state has no spectra. */
+int tl_run_calibrate(const tl_scenario *s, const tl_product *p, tl_cal_report *c);
 
 /* Run s at its drive level. progress (may be NULL) is called after each
  * block with (ctx, done, total). Returns TL_OK or the first error. */

@@ -24,7 +24,11 @@ typedef enum {
     K_CHOICE,   /* one of choices[], stored as its index (unsigned) */
     K_AUTO_U32, /* "auto" (stored as auto_value) or an integer in [min, max] */
     K_MASK,     /* "auto" or an integer (0x... allowed) in [min, max] */
-    K_BOOL      /* true or false, stored as unsigned 0/1 */
+    K_BOOL,     /* true or false, stored as unsigned 0/1 */
+    K_LIST,     /* "none" or 1 to TL_SKY_MAX_CARRIERS numbers in [min, max] separated by commas,
+                   stored x scale in a tl_sky_list */
+    K_SEQUENCE  /* "off" or up to TL_MAX_SWITCH_STEPS "state dwell" pairs separated by commas,
+                   stored in the tl_config at the offset (switch_steps, switch_state, switch_dwell) */
 } key_kind;
 
 typedef struct key_def {
@@ -39,6 +43,7 @@ typedef struct key_def {
 
 static const char *const window_names[] = { "rectangular", "hann", "hamming", "blackman", "blackman-harris4", NULL };
 static const char *const rounding_names[] = { "truncate", "half-up", "half-even", NULL };
+static const char *const switch_state_names[] = { "antenna", "load", "noise", NULL };
 static const char *const shape_names[] = { "sky", "white", NULL };
 
 #define OFF(m) offsetof(tl_scenario, m)
@@ -55,6 +60,8 @@ static const key_def keys[] = {
       "ADC resolution; codes arrive left-aligned in 16-bit words." },
     { "instrument", "adc_full_scale_v", K_REAL, OFF(adc_full_scale_v), 0, 0.001, 100, 1, NULL, 0, "V",
       "Voltage at the ADC's positive full scale (converts firmware counts to volts^2)." },
+    { "instrument", "dc_offset_lsb", K_REAL, OFF(sky.dc_offset_lsb), 0, -1000, 1000, 1, NULL, 0, "LSB",
+      "DC offset added to every sample before the ADC rounds it, in codes." },
     { "instrument", "inputs", K_U32, OFF(cfg.inputs), 0, 1, 2, 1, NULL, 0, "",
       "Antenna inputs; with 2 the firmware also forms the cross-power." },
     { "instrument", "channels", K_CHANNELS, OFF(cfg.points), 0, 128, TL_MAX_CHANNELS, 1, NULL, 0, "",
@@ -74,9 +81,9 @@ static const key_def keys[] = {
     { "sky", "seed", K_U64, OFF(sky.seed), 0, 0, 4294967295.0, 1, NULL, 0, "",
       "Seed of the noise generator (the same seed gives the same voltages)." },
     { "sky", "shape", K_CHOICE, OFF(sky.white), 0, 0, 0, 1, shape_names, 0, "",
-      "sky: power-law sky plus receiver through the bandpass; white: flat spectrum." },
+      "sky: the model below (sky, receiver, bandpass); white: flat spectra, no turnover, trough or bandpass." },
     { "sky", "rms_fraction", K_REAL, OFF(sky.rms_fs), 0, 0.0001, 1, 1, NULL, 0, "of full scale",
-      "Nominal RMS voltage at the ADC as a fraction of full scale." },
+      "RMS of the antenna state's noise at the ADC (no interferers) over full scale; one gain serves every state." },
     { "sky", "drive_db", K_REAL, OFF(drive_db), 0, -40, 12, 1, NULL, 0, "dB",
       "Drive relative to rms_fraction (the fidelity tests use -20, 0 and +6)." },
     { "sky", "sky_t0_k", K_REAL, OFF(sky.sky_t0_k), 0, 0, 1e8, 1, NULL, 0, "K",
@@ -85,6 +92,16 @@ static const key_def keys[] = {
       "Reference frequency of the sky power law." },
     { "sky", "sky_index", K_REAL, OFF(sky.sky_index), 0, -1, 5, 1, NULL, 0, "",
       "Spectral index: T = sky_t0_k x (f / sky_f0_mhz)^-sky_index." },
+    { "sky", "turnover_mhz", K_REAL, OFF(sky.turnover_hz), 0, 0, 1000, 1e6, NULL, 0, "MHz",
+      "Free-free turnover: T x (1 - exp(-tau)) / tau with tau = (f / turnover_mhz)^-2.1; 0 = none." },
+    { "sky", "trough_depth_k", K_REAL, OFF(sky.trough_depth_k), 0, 0, 1e6, 1, NULL, 0, "K",
+      "Depth of the 21-cm absorption trough subtracted from the sky (antenna state only); 0 = none." },
+    { "sky", "trough_centre_mhz", K_REAL, OFF(sky.trough_centre_hz), 0, 0.001, 1000, 1e6, NULL, 0, "MHz",
+      "Centre frequency of the trough." },
+    { "sky", "trough_width_mhz", K_REAL, OFF(sky.trough_width_hz), 0, 0.001, 1000, 1e6, NULL, 0, "MHz",
+      "Full width of the trough at half depth." },
+    { "sky", "trough_flatness", K_REAL, OFF(sky.trough_flatness), 0, 1, 10, 1, NULL, 0, "",
+      "Trough shape: 1 Gaussian; above 1 a flatter bottom and steeper sides (super-Gaussian exponent)." },
     { "sky", "receiver_k", K_REAL, OFF(sky.receiver_k), 0, 0, 1e6, 1, NULL, 0, "K",
       "Receiver noise temperature." },
     { "sky", "highpass_mhz", K_REAL, OFF(sky.highpass_hz), 0, 0.001, 1000, 1e6, NULL, 0, "MHz",
@@ -93,8 +110,24 @@ static const key_def keys[] = {
     { "sky", "lowpass_mhz", K_REAL, OFF(sky.lowpass_hz), 0, 0.001, 1000, 1e6, NULL, 0, "MHz",
       "Corner of the anti-alias Butterworth low-pass." },
     { "sky", "lowpass_order", K_U32, OFF(sky.lowpass_order), 0, 1, 16, 1, NULL, 0, "", "Order of the low-pass." },
+    { "sky", "resonance_mhz", K_REAL, OFF(sky.resonance_hz), 0, 0, 1000, 1e6, NULL, 0, "MHz",
+      "Antenna resonance in the front-end gain (power response of a second-order resonator); 0 = none." },
+    { "sky", "resonance_q", K_REAL, OFF(sky.resonance_q), 0, 0.1, 100, 1, NULL, 0, "",
+      "Quality factor of the resonance (centre frequency / 3-dB width)." },
     { "sky", "coherence", K_REAL, OFF(sky.coherence), 0, 0, 1, 1, NULL, 0, "",
-      "Fraction of the noise common to both inputs (makes the cross-power non-zero)." },
+      "Correlation of the sky between the two inputs (makes the cross-power non-zero); receivers are independent." },
+    { "interference", "carrier_mhz", K_LIST, OFF(sky.carrier_hz), 0, 0.001, 1000, 1e6, NULL, 0, "MHz",
+      "Steady carriers added to the antenna state's voltage at the ADC: none, or their frequencies." },
+    { "interference", "carrier_dbfs", K_LIST, OFF(sky.carrier_dbfs), 0, -150, 0, 1, NULL, 0, "dBFS",
+      "Power of each carrier relative to a full-scale sine, one value per carrier." },
+    { "interference", "burst_mhz", K_REAL, OFF(sky.burst_hz), 0, 0, 1000, 1e6, NULL, 0, "MHz",
+      "Frequency of an intermittent carrier (burst) in the antenna state; 0 = none." },
+    { "interference", "burst_dbfs", K_REAL, OFF(sky.burst_dbfs), 0, -150, 0, 1, NULL, 0, "dBFS",
+      "Power of the burst while it is on, relative to a full-scale sine." },
+    { "interference", "burst_duty", K_REAL, OFF(sky.burst_duty), 0, 0, 1, 1, NULL, 0, "",
+      "Fraction of each period the burst is on." },
+    { "interference", "burst_period_us", K_REAL, OFF(sky.burst_period_us), 0, 0.01, 1e7, 1, NULL, 0, "us",
+      "Burst period: on for burst_duty of it, then off; the first period starts at a seeded offset." },
     { "fidelity", "band_low_mhz", K_REAL, OFF(band_lo_hz), 0, 0, 1000, 1e6, NULL, 0, "MHz",
       "Lower edge of the science band where fidelity is measured." },
     { "fidelity", "band_high_mhz", K_REAL, OFF(band_hi_hz), 0, 0, 1000, 1e6, NULL, 0, "MHz",
@@ -103,6 +136,16 @@ static const key_def keys[] = {
       "Blocks the spectra are split into to estimate standard errors (must divide spectra)." },
     { "fidelity", "extrapolate_to", K_U32, OFF(flight_spectra), 0, 0, TL_MAX_INTEGRATION, 1, NULL, 0, "spectra",
       "Integration length to extrapolate the fidelity margin to; 0 for none." },
+    { "switching", "sequence", K_SEQUENCE, OFF(cfg), 0, 1, TL_MAX_INTEGRATION, 1, NULL, 0, "",
+      "Calibration switch sequence, repeated: 'off', or steps 'state frames' (antenna, load, noise)." },
+    { "switching", "discard", K_U32, OFF(cfg.switch_discard), 0, 0, TL_MAX_INTEGRATION - 1, 1, NULL, 0, "spectra",
+      "Spectra dropped after each change of state (at least taps - 1 keeps states apart)." },
+    { "switching", "load_k", K_REAL, OFF(sky.load_k), 0, 1, 10000, 1, NULL, 0, "K",
+      "Physical temperature of the reference load." },
+    { "switching", "noise_excess_k", K_REAL, OFF(sky.noise_excess_k), 0, 1, 1e7, 1, NULL, 0, "K",
+      "Excess noise temperature the noise source adds to the load." },
+    { "fit", "foreground_order", K_U32, OFF(fit_order), 0, 1, 8, 1, NULL, 0, "",
+      "Order of the log-polynomial foreground fitted under a trough." },
     { "output", "folder", K_TEXT, OFF(folder), SZ(folder), 1, TL_SCENARIO_PATH_MAX - 1, 1, NULL, 0, "",
       "Folder for the outputs (created if missing; -o overrides)." },
     { "output", "csv", K_BOOL, OFF(write_csv), 0, 0, 1, 1, NULL, 0, "", "Write the spectra as CSV." },
@@ -110,7 +153,8 @@ static const key_def keys[] = {
 };
 #define NKEYS (sizeof keys / sizeof keys[0])
 
-static const char *const sections[] = { "scenario", "instrument", "integration", "sky", "fidelity", "output" };
+static const char *const sections[] = { "scenario", "instrument", "integration", "sky",    "interference",
+                                        "fidelity", "switching",   "fit",         "output" };
 #define NSECTIONS (sizeof sections / sizeof sections[0])
 
 /* Fields that other keys determine. */
@@ -141,6 +185,7 @@ void tl_scenario_default(tl_scenario *s)
     snprintf(s->folder, sizeof s->folder, "out");
     s->write_csv = 1;
     s->write_npy = 1;
+    s->fit_order = 5;
     sync_derived(s);
 }
 
@@ -212,6 +257,33 @@ static void format_value(const tl_scenario *s, const key_def *k, char *out, size
     case K_BOOL:
         snprintf(out, cap, "%s", *(const unsigned *)p ? "true" : "false");
         break;
+    case K_SEQUENCE: {
+        const tl_config *cf = p;
+        size_t used = (size_t)snprintf(out, cap, "off");
+        if (cf->switch_steps > 0u)
+            used = 0;
+        for (uint32_t i = 0; i < cf->switch_steps && i < TL_MAX_SWITCH_STEPS && used < cap; i++)
+            used += (size_t)snprintf(out + used, cap - used, "%s%s %u", i ? ", " : "",
+                                     cf->switch_state[i] < 3u ? switch_state_names[cf->switch_state[i]] : "?",
+                                     cf->switch_dwell[i]);
+        break;
+    }
+    case K_LIST: {
+        const tl_sky_list *l = p;
+        size_t used = 0;
+        snprintf(out, cap, "none");
+        for (unsigned i = 0; i < l->n && i < TL_SKY_MAX_CARRIERS && used < cap; i++) {
+            char one[32]; /* the shortest text that reads back as the same double, as K_REAL */
+            const double v = l->v[i] / k->scale;
+            for (int prec = 10; prec <= 17; prec++) {
+                snprintf(one, sizeof one, "%.*g", prec, v);
+                if (strtod(one, NULL) == v)
+                    break;
+            }
+            used += (size_t)snprintf(out + used, cap - used, "%s%s", i ? ", " : "", one);
+        }
+        break;
+    }
     }
 }
 
@@ -242,12 +314,20 @@ static void format_range(const key_def *k, char *out, size_t cap)
     case K_BOOL:
         snprintf(out, cap, "true or false");
         break;
+    case K_SEQUENCE:
+        snprintf(out, cap, "off, or 1 to %u steps 'antenna|load|noise FRAMES' (1 to %.0f) separated by commas",
+                 (unsigned)TL_MAX_SWITCH_STEPS, k->max);
+        break;
     case K_U32:
     case K_U64:
         snprintf(out, cap, "an integer from %.0f to %.0f", k->min, k->max);
         break;
     case K_REAL:
         snprintf(out, cap, "a number from %g to %g", k->min, k->max);
+        break;
+    case K_LIST:
+        snprintf(out, cap, "none, or 1 to %u comma-separated numbers from %g to %g", TL_SKY_MAX_CARRIERS, k->min,
+                 k->max);
         break;
     }
 }
@@ -353,6 +433,85 @@ static int set_value(tl_scenario *s, const key_def *k, const char *v, char *why,
         }
         snprintf(why, cap, "must be %s", range);
         return -1;
+    case K_SEQUENCE: {
+        tl_config *cf = p;
+        uint32_t steps = 0;
+        uint8_t st[TL_MAX_SWITCH_STEPS];
+        uint32_t dw[TL_MAX_SWITCH_STEPS];
+        if (strcmp(v, "off") != 0) {
+            const char *q = v;
+            for (;;) {
+                char name[16];
+                unsigned long long frames = 0;
+                int used = 0;
+                if (steps == TL_MAX_SWITCH_STEPS || sscanf(q, " %15[a-z] %llu%n", name, &frames, &used) != 2 ||
+                    frames < (unsigned long long)k->min || frames > (unsigned long long)k->max) {
+                    snprintf(why, cap, "must be %s", range);
+                    return -1;
+                }
+                unsigned idx = 3;
+                for (unsigned i = 0; i < 3u; i++)
+                    if (strcmp(name, switch_state_names[i]) == 0)
+                        idx = i;
+                if (idx == 3u) {
+                    snprintf(why, cap, "must be %s", range);
+                    return -1;
+                }
+                st[steps] = (uint8_t)idx;
+                dw[steps] = (uint32_t)frames;
+                steps++;
+                q += used;
+                q += strspn(q, " \t");
+                if (*q == '\0')
+                    break;
+                if (*q != ',') {
+                    snprintf(why, cap, "must be %s", range);
+                    return -1;
+                }
+                q++;
+            }
+        }
+        cf->switch_steps = steps;
+        for (uint32_t i = 0; i < TL_MAX_SWITCH_STEPS; i++) {
+            cf->switch_state[i] = i < steps ? st[i] : (uint8_t)TL_STATE_ANTENNA;
+            cf->switch_dwell[i] = i < steps ? dw[i] : 0u;
+        }
+        return 0;
+    }
+    case K_LIST: {
+        tl_sky_list l;
+        memset(&l, 0, sizeof l);
+        for (const char *q = v; strcmp(v, "none") != 0;) {
+            const char *comma = strchr(q, ',');
+            size_t len = comma != NULL ? (size_t)(comma - q) : strlen(q);
+            while (len > 0 && isspace((unsigned char)q[0])) {
+                q++;
+                len--;
+            }
+            while (len > 0 && isspace((unsigned char)q[len - 1]))
+                len--;
+            char item[64], *end = NULL;
+            if (len > 0 && len < sizeof item) {
+                memcpy(item, q, len);
+                item[len] = '\0';
+            } else {
+                item[0] = '\0';
+            }
+            errno = 0;
+            const double x = strtod(item, &end);
+            if (l.n == TL_SKY_MAX_CARRIERS || item[0] == '\0' || strpbrk(item, "xX") != NULL || errno != 0 ||
+                end == item || *end != '\0' || !isfinite(x) || x < k->min || x > k->max) {
+                snprintf(why, cap, "must be %s%s%s", range, *k->unit ? " " : "", k->unit);
+                return -1;
+            }
+            l.v[l.n++] = x * k->scale;
+            if (comma == NULL)
+                break;
+            q = comma + 1;
+        }
+        *(tl_sky_list *)p = l;
+        return 0;
+    }
     }
     return -1;
 }
@@ -490,10 +649,11 @@ static int handler(void *user, const char *section, const char *name, const char
         c->key_line[i] = c->line;
         return 1;
     }
-    if (section[0] == '\0')
-        return fail_at(c, "%s: key outside any section (sections: scenario, instrument, integration, sky, fidelity, "
-                          "output)",
-                       name);
+    if (section[0] == '\0') {
+        char sections_text[200];
+        section_list(sections_text, sizeof sections_text);
+        return fail_at(c, "%s: key outside any section (sections: %s)", name, sections_text);
+    }
     char list[600];
     key_list(section, list, sizeof list);
     return fail_at(c, "[%s] %s: unknown key (keys of [%s]: %s)", section, name, section, list);
@@ -537,6 +697,38 @@ static int fail_key(const tl_scenario *s, const char *path, const int *lines, co
     return -1;
 }
 
+/* The simulator's keys: a level to set, a sky that stays above 0 K,
+ * interferers below half the sample rate, one power per carrier. */
+static int check_sky_relations(const tl_scenario *s, const char *path, const int *lines, char *err, size_t cap)
+{
+    const tl_sky_params *p = &s->sky;
+    const double nyq_mhz = p->sample_rate_hz / 2e6;
+    if (p->sky_t0_k == 0.0 && p->receiver_k == 0.0)
+        return fail_key(s, path, lines, "sky", "receiver_k", err, cap,
+                        "must be above 0 when sky_t0_k = 0 (the antenna state's power sets the ADC level)");
+    double at = 0.0;
+    const double tmin = tl_sky_antenna_min_k(p, &at);
+    if (p->trough_depth_k > 0.0 && tmin < 0.0)
+        return fail_key(s, path, lines, "sky", "trough_depth_k", err, cap,
+                        "digs the sky below 0 K (%.4g K at %.6g MHz); it must be shallower than the sky", tmin,
+                        at / 1e6);
+    for (unsigned i = 0; i < p->carrier_hz.n; i++)
+        if (p->carrier_hz.v[i] / 1e6 >= nyq_mhz)
+            return fail_key(s, path, lines, "interference", "carrier_mhz", err, cap,
+                            "every carrier must be below half the sample rate, %g MHz", nyq_mhz);
+    if (p->carrier_dbfs.n != p->carrier_hz.n)
+        return fail_key(s, path, lines, "interference", "carrier_dbfs", err, cap,
+                        "must give one power per carrier: %u for carrier_mhz", p->carrier_hz.n);
+    if (p->burst_hz > 0.0 && p->burst_hz / 1e6 >= nyq_mhz)
+        return fail_key(s, path, lines, "interference", "burst_mhz", err, cap,
+                        "must be below half the sample rate, %g MHz (or 0 for none)", nyq_mhz);
+    if (p->burst_hz > 0.0 && p->burst_period_us * 1e-6 * p->sample_rate_hz < 2.0)
+        return fail_key(s, path, lines, "interference", "burst_period_us", err, cap,
+                        "must span at least 2 samples, %g us at %g MHz", 2e6 / p->sample_rate_hz,
+                        p->sample_rate_hz / 1e6);
+    return 0;
+}
+
 static int check_relations(const tl_scenario *s, const char *path, const int *lines, char *err, size_t cap)
 {
     const double nyq_mhz = s->sky.sample_rate_hz / 2e6;
@@ -569,7 +761,28 @@ static int check_relations(const tl_scenario *s, const char *path, const int *li
     if (s->flight_spectra != 0u && s->flight_spectra < s->spectra)
         return fail_key(s, path, lines, "fidelity", "extrapolate_to", err, cap,
                         "must be 0 or at least [integration] spectra = %u", s->spectra);
-    return 0;
+    if (s->cfg.switch_steps == 0u && s->cfg.switch_discard != 0u)
+        return fail_key(s, path, lines, "switching", "discard", err, cap, "must be 0 when the sequence is off");
+    if (s->cfg.switch_steps > 0u) {
+        unsigned seen = 0;
+        uint32_t cycle = 0, shortest = UINT32_MAX;
+        for (uint32_t i = 0; i < s->cfg.switch_steps; i++) {
+            seen |= 1u << s->cfg.switch_state[i];
+            cycle += s->cfg.switch_dwell[i];
+            if (s->cfg.switch_dwell[i] < shortest)
+                shortest = s->cfg.switch_dwell[i];
+        }
+        if (seen != 7u)
+            return fail_key(s, path, lines, "switching", "sequence", err, cap,
+                            "must visit antenna, load and noise (calibration needs all three)");
+        if (s->cfg.switch_discard >= shortest)
+            return fail_key(s, path, lines, "switching", "discard", err, cap,
+                            "must be below the shortest dwell, %u frames", shortest);
+        if (s->spectra < cycle + s->cfg.taps)
+            return fail_key(s, path, lines, "integration", "spectra", err, cap,
+                            "must cover a whole switch cycle: at least %u spectra", cycle + s->cfg.taps);
+    }
+    return check_sky_relations(s, path, lines, err, cap);
 }
 
 /* Is the stored value of k inside its range? (A struct built in code may
@@ -610,6 +823,26 @@ static int raw_ok(const tl_scenario *s, const key_def *k)
         return *(const uint32_t *)p == k->auto_value || (*(const uint32_t *)p >= k->min && *(const uint32_t *)p <= k->max);
     case K_BOOL:
         return *(const unsigned *)p <= 1u;
+    case K_SEQUENCE: {
+        const tl_config *cf = p;
+        if (cf->switch_steps > TL_MAX_SWITCH_STEPS)
+            return 0;
+        for (uint32_t i = 0; i < cf->switch_steps; i++)
+            if (cf->switch_state[i] >= 3u || cf->switch_dwell[i] < k->min || cf->switch_dwell[i] > k->max)
+                return 0;
+        return 1;
+    }
+    case K_LIST: {
+        const tl_sky_list *l = p;
+        if (l->n > TL_SKY_MAX_CARRIERS)
+            return 0;
+        for (unsigned i = 0; i < l->n; i++) {
+            const double v = l->v[i] / k->scale;
+            if (!(isfinite(v) && v >= k->min && v <= k->max))
+                return 0;
+        }
+        return 1;
+    }
     }
     return 0;
 }

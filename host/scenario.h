@@ -2,12 +2,13 @@
  * scenario.h - an instrument and an observation, described once.
  *
  * A scenario file is INI (parsed with Debian's inih), one section per
- * concern: [scenario], [instrument], [integration], [sky], [fidelity],
- * [output]. Every key is optional (the built-in default fills it in), every
- * given key is checked for type and range, and unknown sections or keys,
- * repeated keys, indented continuation lines, lines longer than 199
- * characters, text after a section header, "key: value", and " ;" inside a
- * value (which the INI library would take as a comment and cut) are errors.
+ * concern: [scenario], [instrument], [integration], [sky], [interference],
+ * [fidelity], [output]. Every key is optional (the built-in default fills
+ * it in), every given key is checked for type and range, and unknown
+ * sections or keys, repeated keys, indented continuation lines, lines
+ * longer than 199 characters, text after a section header, "key: value",
+ * and " ;" inside a value (which the INI library would take as a comment
+ * and cut) are errors.
  * Integers are decimal (masks may be 0x hex); numbers are decimal. The first
  * error in the file is reported, as one line:
  *     FILE:LINE: [section] key = 'value': must be ... (unit)
@@ -45,6 +46,7 @@ typedef struct tl_scenario {
     double band_lo_hz, band_hi_hz; /* science band */
     char folder[TL_SCENARIO_PATH_MAX]; /* output folder */
     unsigned write_csv, write_npy;
+    uint32_t fit_order;       /* log-polynomial order of the foreground under a trough */
 } tl_scenario;
 
 /* The built-in default. */

@@ -11,8 +11,10 @@
 #include <unistd.h>
 
 #include "atomic_file.h"
+#include "commands.h"
 #include "report.h"
 #include "run.h"
+#include "run_outputs.h"
 #include "scenario.h"
 #include "spectra_out.h"
 #include "tables_gen.h"
@@ -33,6 +35,8 @@ static const char *const main_help =
     "commands:\n"
     "  run       run a scenario: firmware chain, FFTW reference, fidelity figures, outputs\n"
     "  scenario  print the default scenario file, or check one\n"
+    "  simulate  write a scenario's ADC voltages as a SigMF recording (ri16_le)\n"
+    "  replay    run a SigMF recording through the chain and the reference, as run does\n"
     "  tables    write a filterbank coefficient table image, or the committed table sources\n"
     "  help      help on a command (tidelock help run)\n"
     "\n"
@@ -121,15 +125,6 @@ static void show_progress(void *ctx, uint32_t done, uint32_t total)
     fflush(stderr);
 }
 
-typedef struct scenario_out {
-    const tl_scenario *s;
-} scenario_out;
-
-static int write_scenario_file(FILE *f, void *ctx)
-{
-    return tl_scenario_write(f, ((const scenario_out *)ctx)->s);
-}
-
 static int cmd_run(int argc, char **argv)
 {
     static const struct option opts[] = { { "output", required_argument, NULL, 'o' },
@@ -167,13 +162,8 @@ static int cmd_run(int argc, char **argv)
     }
     if (dir == NULL)
         dir = s.folder;
-    if (mkdir(dir, 0777) != 0 && errno != EEXIST) {
-        fprintf(stderr, "tidelock run: %s: cannot create output folder: %s\n", dir, strerror(errno));
-        return EXIT_FAIL;
-    }
-    struct stat st;
-    if (stat(dir, &st) != 0 || !S_ISDIR(st.st_mode)) {
-        fprintf(stderr, "tidelock run: %s: not a folder\n", dir);
+    if (tl_run_outputs_folder(dir, err, sizeof err) != 0) {
+        fprintf(stderr, "tidelock run: %s\n", err);
         return EXIT_FAIL;
     }
     tl_run_result *r = malloc(sizeof *r);
@@ -190,27 +180,13 @@ static int cmd_run(int argc, char **argv)
     }
     if (!quiet)
         tl_report_print(stdout, &s, r);
-    char path[4400];
-    int rc = EXIT_OK;
-    snprintf(path, sizeof path, "%s/summary.json", dir);
-    if (tl_report_write_json(path, &s, r, err, sizeof err) != 0)
-        rc = EXIT_FAIL;
-    scenario_out so = { &s };
-    snprintf(path, sizeof path, "%s/scenario.ini", dir);
-    if (rc == EXIT_OK && tl_atomic_write(path, write_scenario_file, &so, err, sizeof err) != 0)
-        rc = EXIT_FAIL;
-    if (rc == EXIT_OK &&
-        tl_spectra_write(dir, &r->fid.product, s.sky.sample_rate_hz, (int)s.write_csv, (int)s.write_npy, err,
-                         sizeof err) != 0)
-        rc = EXIT_FAIL;
-    if (rc != EXIT_OK) {
+    if (tl_run_outputs_write(dir, &s, r, err, sizeof err) != 0) {
         fprintf(stderr, "tidelock run: %s\n", err);
         free(r);
-        return rc;
+        return EXIT_FAIL;
     }
     if (!quiet)
-        printf("wrote %s/: summary.json, scenario.ini%s%s\n", dir, s.write_csv ? ", spectra as CSV" : "",
-               s.write_npy ? ", spectra as .npy" : "");
+        tl_run_outputs_say(stdout, dir, &s);
     const int fails = tl_fidelity_verdict(&r->fid, NULL, 0);
     free(r);
     return fails ? EXIT_FAIL : EXIT_OK;
@@ -350,6 +326,8 @@ int main(int argc, char **argv)
     }
     if (strcmp(cmd, "help") == 0) {
         const char *topic = argc > 2 ? argv[2] : "";
+        if (strcmp(topic, "simulate") == 0 || strcmp(topic, "replay") == 0)
+            return (topic[0] == 's' ? tl_cmd_simulate : tl_cmd_replay)(2, (char *[]){ argv[2], "--help", NULL });
         fputs(strcmp(topic, "run") == 0        ? run_help
               : strcmp(topic, "scenario") == 0 ? scenario_help
               : strcmp(topic, "tables") == 0   ? tables_help
@@ -361,9 +339,15 @@ int main(int argc, char **argv)
         return cmd_run(argc - 1, argv + 1);
     if (strcmp(cmd, "scenario") == 0)
         return cmd_scenario(argc - 1, argv + 1);
+    if (strcmp(cmd, "simulate") == 0)
+        return tl_cmd_simulate(argc - 1, argv + 1);
+    if (strcmp(cmd, "replay") == 0)
+        return tl_cmd_replay(argc - 1, argv + 1);
     if (strcmp(cmd, "tables") == 0)
         return cmd_tables(argc - 1, argv + 1);
-    fprintf(stderr, "tidelock: unknown command '%s' (commands: run, scenario, tables, help; see tidelock --help)\n",
+    fprintf(stderr,
+            "tidelock: unknown command '%s' (commands: run, scenario, simulate, replay, tables, help; "
+            "see tidelock --help)\n",
             cmd);
     return EXIT_USAGE;
 }

@@ -361,6 +361,23 @@ static const bound bounds[] = {
     { "output", "folder", "o", "", FOLDER180, "", "", FOLDER180 "x", "text of 1 to 180 characters" },
     { "output", "csv", "false", "", "true", "", "TRUE", "1", "true or false" },
     { "output", "npy", "false", "", "true", "", "yes", "0", "true or false" },
+    /* simulator keys (ranges as documented in host/scenario.c) */
+    { "instrument", "dc_offset_lsb", "-1000", "", "1000", "", "-1000.001", "1000.001", "a number from -1000 to 1000 LSB" },
+    { "sky", "turnover_mhz", "0", "", "1000", "", "-0.001", "1000.001", "a number from 0 to 1000 MHz" },
+    { "sky", "trough_depth_k", "0", "", "1000000", "sky_t0_k = 100000000\n", "-0.001", "1000001",
+      "a number from 0 to 1e+06 K" },
+    { "sky", "trough_centre_mhz", "0.001", "", "1000", "", "0.000999", "1000.001", "a number from 0.001 to 1000 MHz" },
+    { "sky", "trough_width_mhz", "0.001", "", "1000", "", "0.000999", "1000.001", "a number from 0.001 to 1000 MHz" },
+    { "sky", "trough_flatness", "1", "", "10", "", "0.999", "10.001", "a number from 1 to 10" },
+    { "sky", "resonance_mhz", "0", "", "1000", "", "-0.001", "1000.001", "a number from 0 to 1000 MHz" },
+    { "sky", "resonance_q", "0.1", "", "100", "", "0.0999", "100.001", "a number from 0.1 to 100" },
+    { "interference", "burst_dbfs", "-150", "", "0", "", "-150.001", "0.001", "a number from -150 to 0 dBFS" },
+    { "interference", "burst_duty", "0", "", "1", "", "-0.001", "1.001", "a number from 0 to 1" },
+    { "interference", "burst_period_us", "0.01", "", "10000000", "", "0.00999", "10000001",
+      "a number from 0.01 to 1e+07 us" },
+    { "switching", "load_k", "1", "", "10000", "", "0.999", "10000.001", "a number from 1 to 10000 K" },
+    { "switching", "noise_excess_k", "1", "", "10000000", "", "0.999", "10000001", "a number from 1 to 1e+07 K" },
+    { "fit", "foreground_order", "1", "", "8", "", "0", "9", "an integer from 1 to 8" },
 };
 #define NBOUNDS (sizeof bounds / sizeof bounds[0])
 
@@ -398,7 +415,11 @@ static void check_invalid(const bound *b, const char *value)
 static void test_every_key_range_ends(void **state)
 {
     (void)state;
-    assert_int_equal(NBOUNDS, 33); /* one row per key of keys[] */
+    /* one row per key of keys[] (52) but the five whose grammar or limits
+     * depend on other keys, tested on their own in test_interference_lists
+     * and test_switching_and_fit_keys: carrier_mhz, carrier_dbfs, burst_mhz,
+     * sequence, discard */
+    assert_int_equal(NBOUNDS, 52 - 5);
     for (size_t i = 0; i < NBOUNDS; i++) {
         const bound *b = &bounds[i];
         check_valid_end(b, b->lo, b->lo_with);
@@ -550,9 +571,9 @@ typedef struct case_ {
     const char *suffix; /* expected message after the path; NULL: loads */
 } case_;
 
-#define SECTIONS "(sections: scenario, instrument, integration, sky, fidelity, output)"
+#define SECTIONS "(sections: scenario, instrument, integration, sky, interference, fidelity, switching, fit, output)"
 #define INSTRUMENT_KEYS                                                                                               \
-    "(keys of [instrument]: sample_rate_mhz, adc_bits, adc_full_scale_v, inputs, channels, taps, window, "            \
+    "(keys of [instrument]: sample_rate_mhz, adc_bits, adc_full_scale_v, dc_offset_lsb, inputs, channels, taps, window, "            \
     "fft_scaling, rounding, detection_shift)"
 
 static const case_ cases[] = {
@@ -562,7 +583,8 @@ static const case_ cases[] = {
       ":3: [instrument] chanels: unknown key " INSTRUMENT_KEYS },
     { "key in the wrong section", "[sky]\nchannels = 2048\n",
       ":2: [sky] channels: unknown key (keys of [sky]: seed, shape, rms_fraction, drive_db, sky_t0_k, sky_f0_mhz, "
-      "sky_index, receiver_k, highpass_mhz, highpass_order, lowpass_mhz, lowpass_order, coherence)" },
+      "sky_index, turnover_mhz, trough_depth_k, trough_centre_mhz, trough_width_mhz, trough_flatness, receiver_k, "
+      "highpass_mhz, highpass_order, lowpass_mhz, lowpass_order, resonance_mhz, resonance_q, coherence)" },
     { "key given twice", "[instrument]\nchannels = 2048\ntaps = 2\nchannels = 1024\n",
       ":4: [instrument] channels: given twice (first on line 2)" },
     { "key given twice, section repeated", "[sky]\nseed = 1\n\n[output]\ncsv = true\n[sky]\nseed = 2\n",
@@ -977,7 +999,7 @@ static void test_strict_syntax(void **state)
     /* a section name of any length is checked */
     expect_error("[qqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqq]\n",
                  ":1: [qqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqq]: unknown section "
-                 "(sections: scenario, instrument, integration, sky, fidelity, output)");
+                 "(sections: scenario, instrument, integration, sky, interference, fidelity, switching, fit, output)");
 }
 
 /* Numbers are written so that they read back exactly. */
@@ -995,6 +1017,72 @@ static void test_reals_round_trip_exactly(void **state)
     assert_true(b.sky.coherence == a.sky.coherence);
     assert_int_equal(tl_scenario_check(&b, NULL, err, sizeof err), 0);
     free(text);
+}
+
+/* [switching] and [fit]: ranges and relations (the documented contract in
+ * host/scenario.c; the sequence grammar is "off" or "state frames" steps). */
+static void test_switching_and_fit_keys(void **state)
+{
+    (void)state;
+    tl_scenario s;
+    expect_loads("[switching]\nsequence = antenna 64, load 32, noise 32\ndiscard = 3\n", &s);
+    assert_int_equal(s.cfg.switch_steps, 3);
+    assert_int_equal(s.cfg.switch_state[1], TL_STATE_LOAD);
+    assert_int_equal(s.cfg.switch_dwell[2], 32);
+    assert_int_equal(s.cfg.switch_discard, 3);
+    expect_loads("[switching]\nsequence = noise 1,antenna 2 , load 1\n", &s);
+    assert_int_equal(s.cfg.switch_steps, 3);
+    expect_loads("[switching]\nsequence = off\n", &s);
+    assert_int_equal(s.cfg.switch_steps, 0);
+    const char *range = "must be off, or 1 to 8 steps 'antenna|load|noise FRAMES' (1 to 16777216) separated by commas";
+    char want[400];
+    snprintf(want, sizeof want, ":2: [switching] sequence = 'antenna 0, load 1, noise 1': %s", range);
+    expect_error("[switching]\nsequence = antenna 0, load 1, noise 1\n", want);
+    snprintf(want, sizeof want, ":2: [switching] sequence = 'sky 4, load 1, noise 1': %s", range);
+    expect_error("[switching]\nsequence = sky 4, load 1, noise 1\n", want);
+    snprintf(want, sizeof want, ":2: [switching] sequence = 'antenna 4; load 1': %s", range);
+    expect_error("[switching]\nsequence = antenna 4; load 1\n", want);
+    snprintf(want, sizeof want,
+             ":2: [switching] sequence = 'antenna 1, load 1, noise 1, antenna 1, load 1, noise 1, antenna 1, load "
+             "1, noise 1': %s",
+             range);
+    expect_error("[switching]\nsequence = antenna 1, load 1, noise 1, antenna 1, load 1, noise 1, antenna 1, "
+                 "load 1, noise 1\n",
+                 want);
+    /* relations */
+    expect_error("[switching]\nsequence = antenna 64, load 32\n",
+                 ":2: [switching] sequence = 'antenna 64, load 32': must visit antenna, load and noise "
+                 "(calibration needs all three)");
+    expect_error("[switching]\nsequence = antenna 64, load 32, noise 32\ndiscard = 32\n",
+                 ":3: [switching] discard = '32': must be below the shortest dwell, 32 frames");
+    expect_error("[switching]\ndiscard = 2\n", ":2: [switching] discard = '2': must be 0 when the sequence is off");
+    expect_error("[switching]\nsequence = antenna 4000, load 100, noise 100\n",
+                 ": [integration] spectra = '4096' (default): must cover a whole switch cycle: at least 4204 spectra");
+    /* temperatures and the fit order */
+    expect_loads("[switching]\nload_k = 1\nnoise_excess_k = 10000000\n[fit]\nforeground_order = 8\n", &s);
+    assert_true(s.sky.load_k == 1.0 && s.sky.noise_excess_k == 1e7 && s.fit_order == 8);
+    expect_error("[switching]\nload_k = 0\n", ":2: [switching] load_k = '0': must be a number from 1 to 10000 K");
+    expect_error("[fit]\nforeground_order = 9\n", ":2: [fit] foreground_order = '9': must be an integer from 1 to 8");
+}
+
+/* [interference] lists: one power per carrier, below Nyquist, at most 4. */
+static void test_interference_lists(void **state)
+{
+    (void)state;
+    tl_scenario s;
+    expect_loads("[interference]\ncarrier_mhz = 10, 20.5\ncarrier_dbfs = -30, -40\nburst_mhz = 51.1\n", &s);
+    expect_error("[interference]\ncarrier_mhz = 10, 20\ncarrier_dbfs = -30\n",
+                 ":3: [interference] carrier_dbfs = '-30': must give one power per carrier: 2 for carrier_mhz");
+    expect_error("[interference]\ncarrier_mhz = 60\ncarrier_dbfs = -30\n",
+                 ":2: [interference] carrier_mhz = '60': every carrier must be below half the sample rate, 51.2 MHz");
+    expect_error("[interference]\ncarrier_mhz = 1,2,3,4,5\n",
+                 ":2: [interference] carrier_mhz = '1,2,3,4,5': must be none, or 1 to 4 comma-separated numbers from "
+                 "0.001 to 1000 MHz");
+    expect_error("[interference]\ncarrier_mhz = abc\n",
+                 ":2: [interference] carrier_mhz = 'abc': must be none, or 1 to 4 comma-separated numbers from 0.001 "
+                 "to 1000 MHz");
+    expect_error("[interference]\nburst_mhz = 60\n",
+                 ":2: [interference] burst_mhz = '60': must be below half the sample rate, 51.2 MHz (or 0 for none)");
 }
 
 int main(int argc, char **argv)
@@ -1023,6 +1111,8 @@ int main(int argc, char **argv)
         cmocka_unit_test(test_long_unknown_section),
         cmocka_unit_test(test_check_struct),
         cmocka_unit_test(test_strict_syntax),
+        cmocka_unit_test(test_switching_and_fit_keys),
+        cmocka_unit_test(test_interference_lists),
         cmocka_unit_test(test_reals_round_trip_exactly),
         cmocka_unit_test(test_cli_check_bad_file),
         cmocka_unit_test(test_cli_print_is_default_file),

@@ -1,0 +1,357 @@
+/* cmd_replay.c - `tidelock replay`: a SigMF recording (simulated, or captured
+ * on a bench ADC) through the firmware chain and the double references,
+ * exactly as `tidelock run` does with the simulated sky. */
+#include <errno.h>
+#include <getopt.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <time.h>
+#include <unistd.h>
+
+#include "commands.h"
+#include "fidelity.h"
+#include "report.h"
+#include "run.h"
+#include "run_outputs.h"
+#include "scenario.h"
+#include "sigmf.h"
+#include "taps_design.h"
+
+enum { EXIT_OK = 0, EXIT_FAIL = 1, EXIT_USAGE = 2 };
+
+static const char *const replay_help =
+    "usage: tidelock replay RECORDING.sigmf-meta [SCENARIO.ini] [-o DIR] [--block-kib N] [-q]\n"
+    "\n"
+    "Run a SigMF recording through the firmware chain and the FFTW double references, print the\n"
+    "same report as `tidelock run` and write the same files into DIR. The scenario gives the\n"
+    "instrument: SCENARIO.ini when given, else the one the recording carries (tidelock:scenario,\n"
+    "written by `tidelock simulate`), else the built-in default. The recording's core:sample_rate\n"
+    "and core:num_channels must match the scenario's sample rate and inputs, and it must hold\n"
+    "(taps - 1 + spectra) x 2 x channels samples per input; the first ones are used.\n"
+    "Datatypes read: ri16_le, ri8, rf32_le (full scale of the type = ADC full scale; float 1.0)\n"
+    "and ci16_le (complex baseband at rate fs, read as the real signal at 2 fs whose 0..fs holds\n"
+    "the band -fs/2..+fs/2). Values are rounded to the scenario's ADC codes. The data file is\n"
+    "read in blocks, so memory stays bounded whatever its size.\n"
+    "\n"
+    "options:\n"
+    "  -o, --output DIR    output folder (default: the scenario's [output] folder)\n"
+    "      --block-kib N   read block in KiB, from 4 to 65536 (default 1024)\n"
+    "  -q, --quiet         print nothing but errors; the exit status tells the verdict\n"
+    "  -h, --help          this text\n"
+    "exit status: 0 PASS, 1 FAIL or error (bad recording, scenario mismatch, I/O), 2 usage\n"
+    "example: tidelock simulate my.ini -o rec && tidelock replay rec.sigmf-meta my.ini -o out\n";
+
+static int usage(const char *fmt, const char *arg)
+{
+    fputs("tidelock replay: ", stderr);
+    fprintf(stderr, fmt, arg);
+    fputs(" (see tidelock replay --help)\n", stderr);
+    return EXIT_USAGE;
+}
+
+/* ---- the recording as the harness's sample source ---------------------------- */
+
+typedef struct recording_src {
+    tl_sigmf_reader *rd;
+    int failed;
+    char err[2048];
+} recording_src;
+
+static void recording_source(void *state, int16_t *in0, int16_t *in1, size_t n)
+{
+    recording_src *rs = state;
+    int16_t *const out[2] = { in0, in1 };
+    if (!rs->failed && tl_sigmf_read(rs->rd, out, n, rs->err, sizeof rs->err) == 0)
+        return;
+    rs->failed = 1; /* the run finishes on zeros; its result is discarded */
+    memset(in0, 0, n * sizeof *in0);
+    if (in1 != NULL)
+        memset(in1, 0, n * sizeof *in1);
+}
+
+typedef struct progress_bar {
+    int on;
+} progress_bar;
+
+static void show_progress(void *ctx, uint32_t done, uint32_t total)
+{
+    const progress_bar *pb = ctx;
+    if (!pb->on)
+        return;
+    const int width = 30, filled = (int)((uint64_t)width * done / total);
+    fprintf(stderr, "\r  [%.*s%*s] %3u%%  block %u of %u", filled, "##############################", width - filled,
+            "", (unsigned)(100u * done / total), done, total);
+    if (done == total)
+        fprintf(stderr, "\r%*s\r", width + 40, "");
+    fflush(stderr);
+}
+
+/* The harness set up as tl_run_scenario (run.c) does, with the recording as
+ * the source instead of the sky generator. */
+static tl_status replay_run(const tl_scenario *s, recording_src *src, tl_run_result *r, progress_bar *pb)
+{
+    memset(r, 0, sizeof *r);
+    struct timespec t0, t1;
+    clock_gettime(CLOCK_MONOTONIC, &t0);
+    uint8_t *img = NULL;
+    size_t img_len = 0;
+    if (s->cfg.points != tl_taps_default_points || s->cfg.taps != tl_taps_default_taps ||
+        s->window != tl_taps_default_window) {
+        tl_taps *t = malloc(sizeof *t);
+        img = malloc(TL_TAPS_IMAGE_BYTES(s->cfg.taps, s->cfg.points));
+        if (t == NULL || img == NULL || tl_taps_design(s->window, s->cfg.taps, s->cfg.points, t, NULL) != 0 ||
+            tl_taps_write_image(t, img, TL_TAPS_IMAGE_BYTES(s->cfg.taps, s->cfg.points), &img_len) != TL_OK) {
+            free(t);
+            free(img);
+            return r->fid.status = TL_E_TABLE_FORMAT;
+        }
+        free(t);
+    }
+    tl_fid_setup su;
+    memset(&su, 0, sizeof su);
+    su.taps_image = img;
+    su.taps_len = img_len;
+    su.cfg = s->cfg;
+    su.cfg.integration = s->spectra;
+    su.progress = show_progress;
+    su.progress_ctx = pb;
+    su.window = s->window;
+    su.spectra = s->spectra;
+    su.blocks = s->blocks;
+    tl_scenario_band(s, &su.band_lo, &su.band_hi);
+    su.flight_spectra = s->flight_spectra;
+    su.source = recording_source;
+    su.source_state = src;
+    su.set_state = NULL; /* a recording holds whatever the switch selected when it was made */
+    tl_status st = tl_fidelity_run(&su, &r->fid);
+    if (st == TL_OK && !src->failed && s->cfg.switch_steps > 0u && tl_run_calibrate(s, &r->fid.product, &r->cal) != 0)
+        st = TL_E_SWITCH; /* as tl_run_scenario: a state never integrated cannot calibrate */
+    free(img);
+    for (unsigned i = 0; i < s->cfg.inputs && i < 2u; i++)
+        r->generator_clips[i] = tl_sigmf_rails(src->rd, i);
+    clock_gettime(CLOCK_MONOTONIC, &t1);
+    r->seconds = (double)(t1.tv_sec - t0.tv_sec) + 1e-9 * (double)(t1.tv_nsec - t0.tv_nsec);
+    return st;
+}
+
+/* ---- the scenario a recording carries ---------------------------------------- */
+
+/* Load the scenario text of the recording's tidelock:scenario through a
+ * temporary file; messages name META [tidelock:scenario] and the line. */
+static int load_carried(const char *meta, const char *text, tl_scenario *s, char *err, size_t cap)
+{
+    const char *tmpdir = getenv("TMPDIR");
+    char tmp[4096];
+    snprintf(tmp, sizeof tmp, "%s/tidelock-carried-XXXXXX", tmpdir && *tmpdir ? tmpdir : "/tmp");
+    const int fd = mkstemp(tmp);
+    FILE *f = fd >= 0 ? fdopen(fd, "w") : NULL;
+    if (f == NULL) {
+        snprintf(err, cap, "%s: tidelock:scenario: cannot make a temporary file: %s", meta, strerror(errno));
+        if (fd >= 0) {
+            close(fd);
+            remove(tmp);
+        }
+        return -1;
+    }
+    const int wrote = fputs(text, f) != EOF;
+    const int closed = fclose(f) == 0;
+    char why[2048];
+    int rc = 0;
+    if (!wrote || !closed) {
+        snprintf(err, cap, "%s: tidelock:scenario: cannot write a temporary copy", meta);
+        rc = -1;
+    } else if (tl_scenario_load(tmp, s, why, sizeof why) != 0) {
+        const size_t tl = strlen(tmp);
+        snprintf(err, cap, "%s [tidelock:scenario]%s", meta, strncmp(why, tmp, tl) == 0 ? why + tl : why);
+        rc = -1;
+    }
+    remove(tmp);
+    return rc;
+}
+
+/* ---- the command ----------------------------------------------------------------- */
+
+/* DIR exists as a folder, or can be made (its parent is a folder). */
+static int folder_possible(const char *dir, char *err, size_t cap)
+{
+    struct stat st;
+    if (stat(dir, &st) == 0) {
+        if (!S_ISDIR(st.st_mode)) {
+            snprintf(err, cap, "%s: not a folder", dir);
+            return -1;
+        }
+        return 0;
+    }
+    char parent[4096];
+    snprintf(parent, sizeof parent, "%s", dir);
+    size_t n = strlen(parent);
+    while (n > 1 && parent[n - 1] == '/')
+        parent[--n] = '\0';
+    char *slash = strrchr(parent, '/');
+    if (slash == NULL)
+        snprintf(parent, sizeof parent, ".");
+    else if (slash == parent)
+        parent[1] = '\0';
+    else
+        *slash = '\0';
+    if (stat(parent, &st) != 0 || !S_ISDIR(st.st_mode) || access(parent, W_OK | X_OK) != 0) {
+        snprintf(err, cap, "%s: cannot create output folder: %s is not a writable folder", dir, parent);
+        return -1;
+    }
+    return 0;
+}
+
+int tl_cmd_replay(int argc, char **argv)
+{
+    static const struct option opts[] = { { "output", required_argument, NULL, 'o' },
+                                          { "block-kib", required_argument, NULL, 'b' },
+                                          { "quiet", no_argument, NULL, 'q' },
+                                          { "help", no_argument, NULL, 'h' },
+                                          { NULL, 0, NULL, 0 } };
+    const char *dir = NULL, *block = NULL;
+    int quiet = 0, c;
+    opterr = 0;
+    while ((c = getopt_long(argc, argv, ":o:qh", opts, NULL)) != -1) {
+        switch (c) {
+        case 'o': dir = optarg; break;
+        case 'b': block = optarg; break;
+        case 'q': quiet = 1; break;
+        case 'h': fputs(replay_help, stdout); return EXIT_OK;
+        case ':': return usage("%s needs a value", argv[optind - 1]);
+        default: return usage("unknown option '%s'", argv[optind - 1]);
+        }
+    }
+    if (optind >= argc)
+        return usage("give the recording, RECORDING.sigmf-meta%s", "");
+    if (argc - optind > 2)
+        return usage("expected a recording and at most one scenario file, got also '%s'", argv[optind + 2]);
+    size_t block_bytes = TL_SIGMF_BLOCK_DEFAULT;
+    if (block != NULL) {
+        char *end = NULL;
+        const unsigned long long v = strtoull(block, &end, 10);
+        if (end == block || *end != '\0' || block[0] == '-' || v < 4 || v > 65536)
+            return usage("--block-kib: '%s' is not a whole number from 4 to 65536", block);
+        block_bytes = (size_t)v * 1024u;
+    }
+    /* NAME, NAME.sigmf-data and NAME.sigmf-meta all name the recording */
+    char meta[4096];
+    const char *arg = argv[optind];
+    const size_t al = strlen(arg), sl = strlen(".sigmf-data");
+    if (al > sl && strcmp(arg + al - sl, ".sigmf-data") == 0)
+        snprintf(meta, sizeof meta, "%.*s.sigmf-meta", (int)(al - sl), arg);
+    else if (al > sl && strcmp(arg + al - sl, ".sigmf-meta") == 0)
+        snprintf(meta, sizeof meta, "%s", arg);
+    else
+        snprintf(meta, sizeof meta, "%s.sigmf-meta", arg);
+
+    char err[16384];
+    tl_sigmf_reader *rd = tl_sigmf_open(meta, block_bytes, err, sizeof err);
+    if (rd == NULL) {
+        fprintf(stderr, "tidelock replay: %s\n", err);
+        return EXIT_FAIL;
+    }
+    const tl_sigmf_info *in = tl_sigmf_info_of(rd);
+    int rc = EXIT_FAIL;
+    tl_run_result *r = NULL;
+    tl_scenario s;
+    tl_scenario_default(&s);
+    const char *scen_path = argc - optind > 1 ? argv[optind + 1] : NULL;
+    char origin[4200];
+    if (scen_path != NULL) {
+        snprintf(origin, sizeof origin, "%s", scen_path);
+        if (tl_scenario_load(scen_path, &s, err, sizeof err) != 0)
+            goto fail;
+    } else if (in->scenario != NULL) {
+        snprintf(origin, sizeof origin, "%s [tidelock:scenario]", meta);
+        if (load_carried(meta, in->scenario, &s, err, sizeof err) != 0)
+            goto fail;
+    } else {
+        snprintf(origin, sizeof origin, "the built-in default scenario");
+    }
+    /* the recording must be the instrument the scenario describes */
+    if (in->channels != s.cfg.inputs) {
+        snprintf(err, sizeof err, "%s: global core:num_channels = %u disagrees with %s: [instrument] inputs = %u "
+                 "(one channel per input)", meta, in->channels, origin, s.cfg.inputs);
+        goto fail;
+    }
+    const double rate = in->sample_rate_hz * (in->is_complex ? 2.0 : 1.0);
+    if (in->sample_rate_hz > 0.0 && fabs(rate - s.sky.sample_rate_hz) > 1e-9 * s.sky.sample_rate_hz) {
+        snprintf(err, sizeof err, "%s: global core:sample_rate = %.10g Hz%s disagrees with %s: [instrument] "
+                 "sample_rate_mhz = %.10g",
+                 meta, in->sample_rate_hz, in->is_complex ? " (ci16_le: read at twice the rate)" : "", origin,
+                 s.sky.sample_rate_hz / 1e6);
+        goto fail;
+    }
+    const uint64_t needed = ((uint64_t)s.cfg.taps - 1u + s.spectra) * s.cfg.points;
+    if (in->real_samples < needed) {
+        char have[256];
+        if (in->is_complex)
+            snprintf(have, sizeof have, "%s, %llu complex samples per channel (%llu real samples at twice the rate)",
+                     in->datatype, (unsigned long long)in->samples, (unsigned long long)in->real_samples);
+        else
+            snprintf(have, sizeof have, "%s, %llu samples per channel", in->datatype, (unsigned long long)in->samples);
+        snprintf(err, sizeof err, "%s: %s, but %s needs (taps - 1 + spectra) x points = (%u - 1 + %u) x %u = %llu "
+                 "samples per input",
+                 meta, have, origin, s.cfg.taps, s.spectra, s.cfg.points, (unsigned long long)needed);
+        goto fail;
+    }
+    tl_sigmf_set_adc_bits(rd, s.cfg.adc_bits);
+    if (dir == NULL)
+        dir = s.folder;
+    if (folder_possible(dir, err, sizeof err) != 0)
+        goto fail;
+    if (!quiet) {
+        printf("replay: %s: %s, %u channel%s at %.6g MHz, %llu samples per channel; scenario from %s; using the "
+               "first %llu%s\n",
+               meta, in->datatype, in->channels, in->channels == 1 ? "" : "s", in->sample_rate_hz / 1e6,
+               (unsigned long long)in->samples, origin, (unsigned long long)needed,
+               in->is_complex ? " real samples (at twice the rate)" : "");
+        if (in->sample_rate_hz <= 0.0)
+            printf("replay: note: the recording states no core:sample_rate; the scenario's %.6g MHz is assumed\n",
+                   s.sky.sample_rate_hz / 1e6);
+        fflush(stdout);
+    }
+    r = malloc(sizeof *r);
+    if (r == NULL) {
+        snprintf(err, sizeof err, "out of memory");
+        goto fail;
+    }
+    recording_src src = { rd, 0, "" };
+    progress_bar pb = { !quiet && isatty(STDERR_FILENO) };
+    const tl_status rs = replay_run(&s, &src, r, &pb);
+    if (src.failed) {
+        snprintf(err, sizeof err, "%s", src.err);
+        goto fail;
+    }
+    if (rs != TL_OK) {
+        snprintf(err, sizeof err, "%s: %s (%s)", origin, tl_status_text(rs), tl_status_name(rs));
+        goto fail;
+    }
+    if (!quiet) {
+        uint64_t rounded = 0, clipped = 0;
+        for (unsigned i = 0; i < in->channels; i++) {
+            rounded += tl_sigmf_rounded(rd, i);
+            clipped += tl_sigmf_clipped(rd, i);
+        }
+        if (rounded != 0 || clipped != 0)
+            printf("replay: note: %llu samples rounded to the %u-bit ADC's codes, %llu clipped at its range\n",
+                   (unsigned long long)rounded, s.cfg.adc_bits, (unsigned long long)clipped);
+        tl_report_print(stdout, &s, r);
+    }
+    if (tl_run_outputs_folder(dir, err, sizeof err) != 0 || tl_run_outputs_write(dir, &s, r, err, sizeof err) != 0)
+        goto fail;
+    if (!quiet)
+        tl_run_outputs_say(stdout, dir, &s);
+    rc = tl_fidelity_verdict(&r->fid, NULL, 0) ? EXIT_FAIL : EXIT_OK;
+    free(r);
+    tl_sigmf_close(rd);
+    return rc;
+fail:
+    fprintf(stderr, "tidelock replay: %s\n", err);
+    free(r);
+    tl_sigmf_close(rd);
+    return EXIT_FAIL;
+}

@@ -1,0 +1,30 @@
+/*
+ * run_outputs.h - the files a run leaves in its output folder, written the
+ * same way by `tidelock run` and `tidelock replay`:
+ *   DIR/summary.json   the report as JSON (report.h)
+ *   DIR/scenario.ini   the scenario as resolved
+ *   DIR/auto<i>.csv, cross.csv, *.npy   the integrated spectra (spectra_out.h),
+ *                      as the scenario's [output] csv and npy keys ask
+ * each through tl_atomic_write, so each appears whole or not at all.
+ */
+#ifndef TL_HOST_RUN_OUTPUTS_H
+#define TL_HOST_RUN_OUTPUTS_H
+
+#include <stddef.h>
+#include <stdio.h>
+#include "run.h"
+#include "scenario.h"
+
+/* Make sure DIR is a folder, creating it (one level) when missing.
+ * Returns 0, or -1 with one line in err (cap bytes) naming DIR. */
+int tl_run_outputs_folder(const char *dir, char *err, size_t cap);
+
+/* Write every output file of r into the existing folder DIR. Returns 0, or
+ * -1 with one line in err naming the file that failed; files written before
+ * it stay, the failing one is left absent or as it was. */
+int tl_run_outputs_write(const char *dir, const tl_scenario *s, const tl_run_result *r, char *err, size_t cap);
+
+/* The closing line "wrote DIR/: summary.json, scenario.ini, ..." to out. */
+void tl_run_outputs_say(FILE *out, const char *dir, const tl_scenario *s);
+
+#endif
