@@ -1085,6 +1085,24 @@ static void test_interference_lists(void **state)
                  ":2: [interference] burst_mhz = '60': must be below half the sample rate, 51.2 MHz (or 0 for none)");
 }
 
+/* The scenarios shipped under docs/ stay valid as the keys evolve. */
+static void test_shipped_scenarios_load(void **state)
+{
+    (void)state;
+    const char *files[] = { "docs/scenario-default.ini", "docs/scenario-dark-ages.ini", "docs/scenario-ground.ini" };
+    for (size_t i = 0; i < sizeof files / sizeof files[0]; i++) {
+        tl_scenario s;
+        char err[ERR_CAP] = "";
+        tl_scenario_default(&s);
+        if (tl_scenario_load(files[i], &s, err, sizeof err) != 0)
+            fail_msg("%s does not load: %s", files[i], err);
+        if (i > 0) { /* the examples switch and carry a trough */
+            assert_int_equal(s.cfg.switch_steps, 3);
+            assert_true(s.sky.trough_depth_k > 0.0);
+        }
+    }
+}
+
 int main(int argc, char **argv)
 {
     (void)argc;
@@ -1113,6 +1131,7 @@ int main(int argc, char **argv)
         cmocka_unit_test(test_strict_syntax),
         cmocka_unit_test(test_switching_and_fit_keys),
         cmocka_unit_test(test_interference_lists),
+        cmocka_unit_test(test_shipped_scenarios_load),
         cmocka_unit_test(test_reals_round_trip_exactly),
         cmocka_unit_test(test_cli_check_bad_file),
         cmocka_unit_test(test_cli_print_is_default_file),
