@@ -72,68 +72,13 @@ static void recording_source(void *state, int16_t *in0, int16_t *in1, size_t n)
         memset(in1, 0, n * sizeof *in1);
 }
 
-typedef struct progress_bar {
-    int on;
-} progress_bar;
-
-static void show_progress(void *ctx, uint32_t done, uint32_t total)
+/* tl_run_with_source (run.c) with the recording as the source. A recording
+ * holds whatever the switch selected when it was made: no set_state. */
+static tl_status replay_run(const tl_scenario *s, recording_src *src, tl_run_result *r, int *bar)
 {
-    const progress_bar *pb = ctx;
-    if (!pb->on)
-        return;
-    const int width = 30, filled = (int)((uint64_t)width * done / total);
-    fprintf(stderr, "\r  [%.*s%*s] %3u%%  block %u of %u", filled, "##############################", width - filled,
-            "", (unsigned)(100u * done / total), done, total);
-    if (done == total)
-        fprintf(stderr, "\r%*s\r", width + 40, "");
-    fflush(stderr);
-}
-
-/* The harness set up as tl_run_scenario (run.c) does, with the recording as
- * the source instead of the sky generator. */
-static tl_status replay_run(const tl_scenario *s, recording_src *src, tl_run_result *r, progress_bar *pb)
-{
-    memset(r, 0, sizeof *r);
-    struct timespec t0, t1;
-    clock_gettime(CLOCK_MONOTONIC, &t0);
-    uint8_t *img = NULL;
-    size_t img_len = 0;
-    if (s->cfg.points != tl_taps_default_points || s->cfg.taps != tl_taps_default_taps ||
-        s->window != tl_taps_default_window) {
-        tl_taps *t = malloc(sizeof *t);
-        img = malloc(TL_TAPS_IMAGE_BYTES(s->cfg.taps, s->cfg.points));
-        if (t == NULL || img == NULL || tl_taps_design(s->window, s->cfg.taps, s->cfg.points, t, NULL) != 0 ||
-            tl_taps_write_image(t, img, TL_TAPS_IMAGE_BYTES(s->cfg.taps, s->cfg.points), &img_len) != TL_OK) {
-            free(t);
-            free(img);
-            return r->fid.status = TL_E_TABLE_FORMAT;
-        }
-        free(t);
-    }
-    tl_fid_setup su;
-    memset(&su, 0, sizeof su);
-    su.taps_image = img;
-    su.taps_len = img_len;
-    su.cfg = s->cfg;
-    su.cfg.integration = s->spectra;
-    su.progress = show_progress;
-    su.progress_ctx = pb;
-    su.window = s->window;
-    su.spectra = s->spectra;
-    su.blocks = s->blocks;
-    tl_scenario_band(s, &su.band_lo, &su.band_hi);
-    su.flight_spectra = s->flight_spectra;
-    su.source = recording_source;
-    su.source_state = src;
-    su.set_state = NULL; /* a recording holds whatever the switch selected when it was made */
-    tl_status st = tl_fidelity_run(&su, &r->fid);
-    if (st == TL_OK && !src->failed && s->cfg.switch_steps > 0u && tl_run_calibrate(s, &r->fid.product, &r->cal) != 0)
-        st = TL_E_SWITCH; /* as tl_run_scenario: a state never integrated cannot calibrate */
-    free(img);
+    tl_status st = tl_run_with_source(s, recording_source, NULL, src, r, tl_run_progress_bar, bar);
     for (unsigned i = 0; i < s->cfg.inputs && i < 2u; i++)
         r->generator_clips[i] = tl_sigmf_rails(src->rd, i);
-    clock_gettime(CLOCK_MONOTONIC, &t1);
-    r->seconds = (double)(t1.tv_sec - t0.tv_sec) + 1e-9 * (double)(t1.tv_nsec - t0.tv_nsec);
     return st;
 }
 
@@ -320,8 +265,8 @@ int tl_cmd_replay(int argc, char **argv)
         goto fail;
     }
     recording_src src = { rd, 0, "" };
-    progress_bar pb = { !quiet && isatty(STDERR_FILENO) };
-    const tl_status rs = replay_run(&s, &src, r, &pb);
+    int bar = !quiet && isatty(STDERR_FILENO);
+    const tl_status rs = replay_run(&s, &src, r, &bar);
     if (src.failed) {
         snprintf(err, sizeof err, "%s", src.err);
         goto fail;

@@ -2,6 +2,7 @@
 #include "run.h"
 
 #include <math.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include <time.h>
@@ -67,19 +68,25 @@ int tl_run_calibrate(const tl_scenario *s, const tl_product *p, tl_cal_report *c
     return 0;
 }
 
-tl_status tl_run_scenario(const tl_scenario *s, tl_run_result *r, void (*progress)(void *, uint32_t, uint32_t),
-                          void *progress_ctx)
+void tl_run_progress_bar(void *ctx, uint32_t done, uint32_t total)
+{
+    if (ctx == NULL || *(const int *)ctx == 0 || total == 0u)
+        return;
+    const int width = 30, filled = (int)((uint64_t)width * done / total);
+    fprintf(stderr, "\r  [%.*s%*s] %3u%%  block %u of %u", filled, "##############################", width - filled,
+            "", (unsigned)(100u * done / total), done, total);
+    if (done == total)
+        fprintf(stderr, "\r%*s\r", width + 40, "");
+    fflush(stderr);
+}
+
+tl_status tl_run_with_source(const tl_scenario *s, tl_fid_source source, void (*set_state)(void *, uint32_t),
+                             void *source_state, tl_run_result *r, void (*progress)(void *, uint32_t, uint32_t),
+                             void *progress_ctx)
 {
     memset(r, 0, sizeof *r);
     struct timespec t0, t1;
     clock_gettime(CLOCK_MONOTONIC, &t0);
-    tl_sky_params sp = s->sky;
-    sp.rms_fs *= pow(10.0, s->drive_db / 20.0);
-    sp.adc_bits = s->cfg.adc_bits;
-    sp.inputs = s->cfg.inputs;
-    tl_sky *sky = tl_sky_open(&sp);
-    if (sky == NULL)
-        return r->fid.status = TL_E_NULL;
     /* the firmware's built-in table when the scenario asks for it, else
      * one designed from the scenario, passed as a CRC-checked image */
     uint8_t *img = NULL;
@@ -92,7 +99,6 @@ tl_status tl_run_scenario(const tl_scenario *s, tl_run_result *r, void (*progres
             tl_taps_write_image(t, img, TL_TAPS_IMAGE_BYTES(s->cfg.taps, s->cfg.points), &img_len) != TL_OK) {
             free(t);
             free(img);
-            tl_sky_close(sky);
             return r->fid.status = TL_E_TABLE_FORMAT;
         }
         free(t);
@@ -110,17 +116,33 @@ tl_status tl_run_scenario(const tl_scenario *s, tl_run_result *r, void (*progres
     su.blocks = s->blocks;
     tl_scenario_band(s, &su.band_lo, &su.band_hi);
     su.flight_spectra = s->flight_spectra;
-    su.source = sky_source;
-    su.source_state = sky;
-    su.set_state = s->cfg.switch_steps > 0 ? sky_state : NULL;
+    su.source = source;
+    su.source_state = source_state;
+    su.set_state = set_state;
     tl_status st = tl_fidelity_run(&su, &r->fid);
     if (st == TL_OK && s->cfg.switch_steps > 0u && tl_run_calibrate(s, &r->fid.product, &r->cal) != 0)
         st = TL_E_SWITCH; /* a state never integrated: the sequence cannot calibrate */
-    r->generator_clips[0] = tl_sky_clipped(sky, 0);
-    r->generator_clips[1] = tl_sky_clipped(sky, 1);
-    tl_sky_close(sky);
     free(img);
     clock_gettime(CLOCK_MONOTONIC, &t1);
     r->seconds = (double)(t1.tv_sec - t0.tv_sec) + 1e-9 * (double)(t1.tv_nsec - t0.tv_nsec);
+    return st;
+}
+
+tl_status tl_run_scenario(const tl_scenario *s, tl_run_result *r, void (*progress)(void *, uint32_t, uint32_t),
+                          void *progress_ctx)
+{
+    memset(r, 0, sizeof *r);
+    tl_sky_params sp = s->sky;
+    sp.rms_fs *= pow(10.0, s->drive_db / 20.0);
+    sp.adc_bits = s->cfg.adc_bits;
+    sp.inputs = s->cfg.inputs;
+    tl_sky *sky = tl_sky_open(&sp);
+    if (sky == NULL)
+        return r->fid.status = TL_E_NULL;
+    const tl_status st = tl_run_with_source(s, sky_source, s->cfg.switch_steps > 0 ? sky_state : NULL, sky, r,
+                                            progress, progress_ctx);
+    r->generator_clips[0] = tl_sky_clipped(sky, 0);
+    r->generator_clips[1] = tl_sky_clipped(sky, 1);
+    tl_sky_close(sky);
     return st;
 }

@@ -35,6 +35,18 @@ typedef struct tl_run_result {
  * calls it). Returns 0, or -1 when a state has no spectra. */
 int tl_run_calibrate(const tl_scenario *s, const tl_product *p, tl_cal_report *c);
 
+/* Run s with any voltage source: the firmware chain, the references, the
+ * fidelity figures, and the calibration when s switches. set_state (may be
+ * NULL) is told the switch state before each frame. The run's clip counts
+ * are left to the caller. Returns TL_OK or the first error. */
+tl_status tl_run_with_source(const tl_scenario *s, tl_fid_source source, void (*set_state)(void *, uint32_t),
+                             void *source_state, tl_run_result *r, void (*progress)(void *, uint32_t, uint32_t),
+                             void *progress_ctx);
+
+/* A progress callback for the runs: a bar on stderr when ctx points to a
+ * non-zero int (the caller decides: a terminal, not quiet). */
+void tl_run_progress_bar(void *ctx, uint32_t done, uint32_t total);
+
 /* Run s at its drive level. progress (may be NULL) is called after each
  * block with (ctx, done, total). Returns TL_OK or the first error. */
 tl_status tl_run_scenario(const tl_scenario *s, tl_run_result *r, void (*progress)(void *, uint32_t, uint32_t),

@@ -108,23 +108,6 @@ static int bad_option(const char *cmd, char **argv, int c)
 
 /* ---- run ------------------------------------------------------------------- */
 
-typedef struct progress_bar {
-    int on;
-} progress_bar;
-
-static void show_progress(void *ctx, uint32_t done, uint32_t total)
-{
-    const progress_bar *pb = ctx;
-    if (!pb->on)
-        return;
-    const int width = 30, filled = (int)((uint64_t)width * done / total);
-    fprintf(stderr, "\r  [%.*s%*s] %3u%%  block %u of %u", filled, "##############################", width - filled,
-            "", (unsigned)(100u * done / total), done, total);
-    if (done == total)
-        fprintf(stderr, "\r%*s\r", width + 40, "");
-    fflush(stderr);
-}
-
 static int cmd_run(int argc, char **argv)
 {
     static const struct option opts[] = { { "output", required_argument, NULL, 'o' },
@@ -171,8 +154,8 @@ static int cmd_run(int argc, char **argv)
         fprintf(stderr, "tidelock run: out of memory\n");
         return EXIT_FAIL;
     }
-    progress_bar pb = { !quiet && isatty(STDERR_FILENO) };
-    const tl_status rs = tl_run_scenario(&s, r, show_progress, &pb);
+    int bar = !quiet && isatty(STDERR_FILENO);
+    const tl_status rs = tl_run_scenario(&s, r, tl_run_progress_bar, &bar);
     if (rs != TL_OK) {
         fprintf(stderr, "tidelock run: scenario %s: %s (%s)\n", s.name, tl_status_text(rs), tl_status_name(rs));
         free(r);

@@ -19,27 +19,10 @@
 #include <stdio.h>
 #include <stdlib.h>
 
+#include "calibrate.h"
 #include "sky_noise.h"
 #include "taps_design.h"
 #include "tl_test.h"
-
-/* Predicted scatter * sqrt(M) for a table's lag correlations. */
-static double predicted_factor(const tl_taps *t, uint32_t M)
-{
-    const uint32_t N = t->points, P = t->taps;
-    double e = 0.0;
-    for (uint32_t n = 0; n < P * N; n++)
-        e += (double)t->coef[n] * t->coef[n];
-    double v = 1.0;
-    for (uint32_t l = 1; l < P; l++) {
-        double r = 0.0;
-        for (uint32_t n = 0; n + l * N < P * N; n++)
-            r += (double)t->coef[n] * t->coef[n + l * N];
-        r /= e;
-        v += 2.0 * (1.0 - (double)l / M) * r * r;
-    }
-    return sqrt(v);
-}
 
 static void scatter_case(uint32_t M, uint32_t taps, uint64_t seed)
 {
@@ -66,7 +49,7 @@ static void scatter_case(uint32_t M, uint32_t taps, uint64_t seed)
     uint8_t *img = malloc(TL_TAPS_IMAGE_BYTES(taps, N));
     size_t len = 0;
     assert_int_equal(tl_taps_write_image(t, img, TL_TAPS_IMAGE_BYTES(taps, N), &len), TL_OK);
-    const double pred = predicted_factor(t, M);
+    const double pred = tl_radiometer_factor(t, M); /* host/calibrate.h */
     tl_chain *c = tl_test_chain();
     tl_product *pr = tl_test_product();
     assert_int_equal(tl_chain_init(c, &cfg, img, len), TL_OK);
