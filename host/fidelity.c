@@ -140,16 +140,18 @@ static double denom(const block_sums *ref, int prod, uint32_t k, double scale)
 
 /* Metrics of fix against ref (ref scaled by rscale into fix's units). */
 static void metrics(const block_sums *fix, const block_sums *ref, double rscale, int prod, uint32_t lo, uint32_t hi,
-                    uint32_t M, double expected_delta_per_spectrum, double gain_err, tl_fid_metrics *m)
+                    uint32_t M, double expected_delta_per_spectrum, const double *gain_err, tl_fid_metrics *m)
 {
     const uint32_t J = fix->blocks, K = hi - lo;
     double *beta = calloc(J, sizeof(double));
     double *d = calloc(K, sizeof(double));
     double *se = calloc(K, sizeof(double));
-    if (beta == NULL || d == NULL || se == NULL) {
+    double *pk = calloc(K, sizeof(double));
+    if (beta == NULL || d == NULL || se == NULL || pk == NULL) {
         free(beta);
         free(d);
         free(se);
+        free(pk);
         return;
     }
     double pred = 0.0;
@@ -166,9 +168,11 @@ static void metrics(const block_sums *fix, const block_sums *ref, double rscale,
         d[i] = s;
         const double var = (s2 - s * s / J) / (J - 1);
         se[i] = sqrt(J * (var > 0.0 ? var : 0.0));
-        /* additive round-off, plus the multiplicative twiddle gain error:
-         * auto sums scale by (1 + g), cross sums too (both inputs share it) */
-        pred += (M * expected_delta_per_spectrum + gain_err * total(ref, prod, k, rscale)) / den;
+        /* additive round-off, plus the channel's multiplicative twiddle gain
+         * error: auto sums scale by (1 + g_k), cross sums too (both inputs
+         * share it) */
+        pk[i] = (M * expected_delta_per_spectrum + gain_err[k] * total(ref, prod, k, rscale)) / den;
+        pred += pk[i];
     }
     double b = 0.0, bs = 0.0, bs2 = 0.0;
     for (uint32_t j = 0; j < J; j++) {
@@ -181,6 +185,9 @@ static void metrics(const block_sums *fix, const block_sums *ref, double rscale,
     m->bias = b;
     m->bias_se = sqrt(J * (bvar > 0.0 ? bvar : 0.0));
     m->bias_pred = pred / K;
+    /* consistency: each channel against its own prediction, after removing
+     * the band's common residual (b - bias_pred) */
+    const double common = b - m->bias_pred;
     double ms = 0.0, mx = 0.0, dev = 0.0, chi2 = 0.0;
     for (uint32_t i = 0; i < K; i++) {
         ms += se[i] * se[i];
@@ -188,8 +195,9 @@ static void metrics(const block_sums *fix, const block_sums *ref, double rscale,
             mx = fabs(d[i]);
         if (fabs(d[i] - b) > dev)
             dev = fabs(d[i] - b);
+        const double r = d[i] - pk[i] - common;
         if (se[i] > 0.0)
-            chi2 += (d[i] - b) * (d[i] - b) / (se[i] * se[i]);
+            chi2 += r * r / (se[i] * se[i]);
     }
     const double sqm = sqrt((double)M);
     m->scatter1 = sqrt(ms / K) * sqm;
@@ -206,6 +214,7 @@ static void metrics(const block_sums *fix, const block_sums *ref, double rscale,
     free(beta);
     free(d);
     free(se);
+    free(pk);
 }
 
 /* Bias and max of fix against the ideal reference. */
@@ -317,9 +326,17 @@ tl_status tl_fidelity_run(const tl_fid_setup *su, tl_fid_result *res)
 
     tl_noise_prediction np;
     tl_noise_predict(N, chA->fft.scale_mask, (tl_rounding)cfg.rounding, tq->shift - 15u, sA, &np);
-    double tw_gain = 0.0;
-    tl_twiddle_gain_error(N, chA->fft.scale_mask, su->band_lo, su->band_hi, 64u, &tw_gain);
-    res->twiddle_gain = tw_gain;
+    /* the twiddles' per-channel power gain error (noise-free simulation) */
+    double *tw_gain = calloc(K, sizeof(double));
+    if (tw_gain == NULL || tl_twiddle_gain_channels(N, chA->fft.scale_mask, 256u, tw_gain) != 0) {
+        free(tw_gain);
+        st = TL_E_NULL;
+        goto out;
+    }
+    double tw_mean = 0.0;
+    for (uint32_t k = su->band_lo; k < su->band_hi; k++)
+        tw_mean += tw_gain[k] / (su->band_hi - su->band_lo);
+    res->twiddle_gain = tw_mean;
     res->noise_pred_lsb2 = np.total_noise;
     res->spectra = M;
     res->blocks = J;
@@ -361,6 +378,7 @@ tl_status tl_fidelity_run(const tl_fid_setup *su, tl_fid_result *res)
                                  f->max_dev;
         }
     }
+    free(tw_gain);
 out:
     tl_ref_close(refq);
     tl_ref_close(refi);

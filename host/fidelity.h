@@ -31,9 +31,12 @@
  *                  shifts (zero for half-even). The flight pass (same FFT
  *                  outputs, flight shift) supplies the random part (b' is its
  *                  bias) and must itself agree with its predicted bias.
- *   chi2         = sum_k ((d_k - b) / se_k)^2 over K channels; with se_k from
- *                  J blocks each term is t^2 with J-1 degrees of freedom;
- *                  chi2_z is its deviation from K (J-1)/(J-3) in standard units
+ *   chi2         = sum_k ((d_k - p_k - (b - bias_pred)) / se_k)^2 over K
+ *                  channels, p_k the channel's own predicted bias (it carries
+ *                  the twiddles' per-channel gain pattern, rms ~1e-9); with
+ *                  se_k from J blocks each term is t^2 with J-1 degrees of
+ *                  freedom; chi2_z is its deviation from K (J-1)/(J-3) in
+ *                  standard units
  *   bias_pred    = the analytic bias (noise_model.h): E|e|^2 / P, plus the
  *                  detection shift's mean rounding error / P, plus the power
  *                  gain error g of the quantized twiddles (times C / noise

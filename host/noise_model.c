@@ -205,3 +205,43 @@ int tl_twiddle_gain_error(uint32_t points, uint32_t scale_mask, uint32_t lo, uin
     free(f);
     return 0;
 }
+
+int tl_twiddle_gain_channels(uint32_t points, uint32_t scale_mask, unsigned trials, double *g)
+{
+    tl_fft *f = malloc(sizeof *f);
+    if (f == NULL || g == NULL || trials == 0u || tl_fft_init(f, points, scale_mask, TL_ROUND_HALF_EVEN) != TL_OK) {
+        free(f);
+        return -1;
+    }
+    const uint32_t L = points / 2u;
+    double *y = fftw_malloc(sizeof(double) * points);
+    double *X = malloc(sizeof(double) * points), *w = malloc(sizeof(double) * points);
+    double *num = calloc(L, sizeof(double)), *den = calloc(L, sizeof(double));
+    fftw_complex *Z = fftw_malloc(sizeof(fftw_complex) * (L + 1u));
+    fftw_plan plan = fftw_plan_dft_r2c_1d((int)points, y, Z, FFTW_ESTIMATE);
+    tl_rng rng;
+    tl_rng_seed(&rng, 0x7478u);
+    const double sc = ldexp(1.0, -(int)f->total_shift);
+    for (unsigned t = 0; t < trials; t++) {
+        for (uint32_t n = 0; n < points; n++)
+            y[n] = tl_rng_normal(&rng);
+        sim_fft(f, y, X, w);
+        fftw_execute(plan);
+        for (uint32_t k = 0; k < L; k++) {
+            const double rr = Z[k][0] * sc, ri = Z[k][1] * sc;
+            num[k] += X[2u * k] * X[2u * k] + X[2u * k + 1u] * X[2u * k + 1u] - (rr * rr + ri * ri);
+            den[k] += rr * rr + ri * ri;
+        }
+    }
+    for (uint32_t k = 0; k < L; k++)
+        g[k] = num[k] / den[k];
+    fftw_destroy_plan(plan);
+    fftw_free(y);
+    fftw_free(Z);
+    free(X);
+    free(w);
+    free(num);
+    free(den);
+    free(f);
+    return 0;
+}

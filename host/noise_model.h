@@ -34,6 +34,11 @@ void tl_round_error_moments_cont(tl_rounding mode, double *mean, double *mean_sq
 int tl_twiddle_gain_error(uint32_t points, uint32_t scale_mask, uint32_t lo, uint32_t hi, unsigned trials,
                           double *mean_gain_err);
 
+/* The same per channel: g[k], k < points/2, from `trials` white-noise probes
+ * through the noise-free double simulation (each probe's estimate scatters
+ * by about the twiddle error itself, so 256 probes resolve ~1e-10). */
+int tl_twiddle_gain_channels(uint32_t points, uint32_t scale_mask, unsigned trials, double *g);
+
 typedef struct tl_noise_prediction {
     double fft_noise;      /* E|e|^2 per output channel from FFT rounding, output LSB^2 (complex) */
     double pfb_noise;      /* E|e|^2 per channel from the filterbank output rounding */

@@ -120,6 +120,36 @@ static void test_truncating_detection_fails(void **state)
     free(r);
 }
 
+/* High precision: few channels, many spectra. The per-channel standard
+ * error is then small enough that the twiddles' per-channel gain pattern
+ * (rms ~1e-9) would fail a single-bias consistency test; it passes against
+ * the per-channel prediction, and the band bias matches to a fraction of its
+ * ~6e-11 standard error. */
+static void test_high_precision_few_channels(void **state)
+{
+    (void)state;
+    tl_scenario s;
+    tl_scenario_default(&s);
+    s.cfg.points = 256;
+    s.spectra = 65536;
+    s.cfg.integration = 65536;
+    s.band_lo_hz = 5e6;
+    s.band_hi_hz = 45e6;
+    s.sky.seed = tl_test_seed("fidelity-precise", 1);
+    tl_run_result *r = calloc(1, sizeof *r);
+    assert_int_equal(tl_run_scenario(&s, r, NULL, NULL), TL_OK);
+    for (int p = 0; p < TL_FID_PRODUCTS; p++) {
+        const tl_fid_metrics *m = &r->fid.main[p];
+        printf("    %-8s bias %+.3e se %.2e pred %+.3e chi2 z %+.2f\n", tl_fidelity_product_name(p), m->bias, m->bias_se,
+               m->bias_pred, m->chi2_z);
+        assert_true(m->bias_se < 1e-10);
+        assert_true(fabs(m->chi2_z) < TL_FID_CHI2_Z_MAX);
+        assert_true(fabs(m->bias - m->bias_pred) <= TL_FID_PRED_SIGMAS * m->bias_se + 0.05 * fabs(m->bias_pred));
+    }
+    assert_int_equal(tl_fidelity_verdict(&r->fid, NULL, 0), 0);
+    free(r);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -127,6 +157,7 @@ int main(void)
         cmocka_unit_test(test_minus_20db),
         cmocka_unit_test(test_plus_6db),
         cmocka_unit_test(test_truncating_detection_fails),
+        cmocka_unit_test(test_high_precision_few_channels),
     };
     return cmocka_run_group_tests_name("fidelity", tests, NULL, NULL);
 }
