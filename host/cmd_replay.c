@@ -20,7 +20,6 @@
 #include "sigmf.h"
 #include "taps_design.h"
 
-enum { EXIT_OK = 0, EXIT_FAIL = 1, EXIT_USAGE = 2 };
 
 static const char *const replay_help =
     "usage: tidelock replay RECORDING.sigmf-meta [SCENARIO.ini] [-o DIR] [--block-kib N] [-q]\n"
@@ -44,13 +43,6 @@ static const char *const replay_help =
     "exit status: 0 PASS, 1 FAIL or error (bad recording, scenario mismatch, I/O), 2 usage\n"
     "example: tidelock simulate my.ini -o rec && tidelock replay rec.sigmf-meta my.ini -o out\n";
 
-static int usage(const char *fmt, const char *arg)
-{
-    fputs("tidelock replay: ", stderr);
-    fprintf(stderr, fmt, arg);
-    fputs(" (see tidelock replay --help)\n", stderr);
-    return EXIT_USAGE;
-}
 
 /* ---- the recording as the harness's sample source ---------------------------- */
 
@@ -165,20 +157,19 @@ int tl_cmd_replay(int argc, char **argv)
         case 'b': block = optarg; break;
         case 'q': quiet = 1; break;
         case 'h': fputs(replay_help, stdout); return EXIT_OK;
-        case ':': return usage("%s needs a value", argv[optind - 1]);
-        default: return usage("unknown option '%s'", argv[optind - 1]);
+        default: return tl_cli_bad_option("replay", argv, c);
         }
     }
     if (optind >= argc)
-        return usage("give the recording, RECORDING.sigmf-meta%s", "");
+        return tl_cli_usage("replay", "give the recording, RECORDING.sigmf-meta%s", "");
     if (argc - optind > 2)
-        return usage("expected a recording and at most one scenario file, got also '%s'", argv[optind + 2]);
+        return tl_cli_usage("replay", "expected a recording and at most one scenario file, got also '%s'", argv[optind + 2]);
     size_t block_bytes = TL_SIGMF_BLOCK_DEFAULT;
     if (block != NULL) {
         char *end = NULL;
         const unsigned long long v = strtoull(block, &end, 10);
         if (end == block || *end != '\0' || block[0] == '-' || v < 4 || v > 65536)
-            return usage("--block-kib: '%s' is not a whole number from 4 to 65536", block);
+            return tl_cli_usage("replay", "--block-kib: '%s' is not a whole number from 4 to 65536", block);
         block_bytes = (size_t)v * 1024u;
     }
     /* NAME, NAME.sigmf-data and NAME.sigmf-meta all name the recording */

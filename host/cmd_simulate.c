@@ -12,7 +12,6 @@
 #include "sky_noise.h"
 #include "tl_switch.h"
 
-enum { EXIT_OK = 0, EXIT_FAIL = 1, EXIT_USAGE = 2 };
 
 static const char *const simulate_help =
     "usage: tidelock simulate [SCENARIO.ini] -o NAME [--spectra N] [--drive DB] [-q]\n"
@@ -34,13 +33,6 @@ static const char *const simulate_help =
     "exit status: 0 written, 1 error (bad scenario file, I/O), 2 usage\n"
     "example: tidelock simulate docs/scenario-default.ini -o sky && tidelock replay sky.sigmf-meta -o out\n";
 
-static int usage(const char *fmt, const char *arg)
-{
-    fputs("tidelock simulate: ", stderr);
-    fprintf(stderr, fmt, arg);
-    fputs(" (see tidelock simulate --help)\n", stderr);
-    return EXIT_USAGE;
-}
 
 /* The generator, switched frame by frame (N samples) through the
  * firmware's calibration sequence exactly as the fidelity harness switches
@@ -104,14 +96,13 @@ int tl_cmd_simulate(int argc, char **argv)
         case 'd': drive = optarg; break;
         case 'q': quiet = 1; break;
         case 'h': fputs(simulate_help, stdout); return EXIT_OK;
-        case ':': return usage("%s needs a value", argv[optind - 1]);
-        default: return usage("unknown option '%s'", argv[optind - 1]);
+        default: return tl_cli_bad_option("simulate", argv, c);
         }
     }
     if (argc - optind > 1)
-        return usage("expected at most one scenario file, got also '%s'", argv[optind + 1]);
+        return tl_cli_usage("simulate", "expected at most one scenario file, got also '%s'", argv[optind + 1]);
     if (name == NULL || *name == '\0')
-        return usage("give the recording's name with -o NAME%s", "");
+        return tl_cli_usage("simulate", "give the recording's name with -o NAME%s", "");
     tl_scenario s;
     tl_scenario_default(&s);
     char err[1024];
@@ -124,14 +115,14 @@ int tl_cmd_simulate(int argc, char **argv)
         char *end = NULL;
         const double v = strtod(drive, &end);
         if (end == drive || *end != '\0' || !(v >= -40.0 && v <= 12.0))
-            return usage("--drive: '%s' is not a number of dB from -40 to 12", drive);
+            return tl_cli_usage("simulate", "--drive: '%s' is not a number of dB from -40 to 12", drive);
         s.drive_db = v;
     }
     if (spectra != NULL) {
         char *end = NULL;
         const unsigned long long v = strtoull(spectra, &end, 10);
         if (end == spectra || *end != '\0' || spectra[0] == '-' || v < 1 || v > TL_MAX_INTEGRATION)
-            return usage("--spectra: '%s' is not a whole number from 1 to 16777216", spectra);
+            return tl_cli_usage("simulate", "--spectra: '%s' is not a whole number from 1 to 16777216", spectra);
         s.spectra = (uint32_t)v;
         if (tl_scenario_check(&s, path, err, sizeof err) != 0) {
             fprintf(stderr, "tidelock simulate: --spectra %s: %s (see tidelock simulate --help)\n", spectra, err);

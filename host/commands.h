@@ -7,6 +7,17 @@
 #ifndef TL_HOST_COMMANDS_H
 #define TL_HOST_COMMANDS_H
 
+/* Exit status of every command. */
+enum { EXIT_OK = 0, EXIT_FAIL = 1, EXIT_USAGE = 2 };
+
+/* One-line usage error on stderr: "tidelock CMD: <fmt with arg> (see
+ * tidelock CMD --help)". Returns EXIT_USAGE. */
+int tl_cli_usage(const char *cmd, const char *fmt, const char *arg);
+
+/* getopt_long's complaint about argv[optind - 1] (c is ':' for a missing
+ * value, anything else for an unknown option), as one line. EXIT_USAGE. */
+int tl_cli_bad_option(const char *cmd, char **argv, int c);
+
 /* tidelock simulate [SCENARIO.ini] -o NAME [--spectra N] [--drive DB] [-q] */
 int tl_cmd_simulate(int argc, char **argv);
 

@@ -24,7 +24,6 @@
 
 
 
-enum { EXIT_OK = 0, EXIT_FAIL = 1, EXIT_USAGE = 2 };
 
 static const char *const main_help =
     "usage: tidelock COMMAND [options]\n"
@@ -89,22 +88,6 @@ static const char *const tables_help =
     "  -h, --help               this text\n"
     "example: tidelock tables my.ini -o taps.bin\n";
 
-/* One-line usage error. */
-static int usage_error(const char *cmd, const char *fmt, const char *arg)
-{
-    fprintf(stderr, "tidelock %s: ", cmd);
-    fprintf(stderr, fmt, arg);
-    fprintf(stderr, " (see tidelock %s --help)\n", cmd);
-    return EXIT_USAGE;
-}
-
-/* getopt's own complaint, as one line of ours. */
-static int bad_option(const char *cmd, char **argv, int c)
-{
-    if (c == ':')
-        return usage_error(cmd, "%s needs a value", argv[optind - 1]);
-    return usage_error(cmd, "unknown option '%s'", argv[optind - 1]);
-}
 
 /* ---- run ------------------------------------------------------------------- */
 
@@ -124,11 +107,11 @@ static int cmd_run(int argc, char **argv)
         case 'd': drive = optarg; break;
         case 'q': quiet = 1; break;
         case 'h': fputs(run_help, stdout); return EXIT_OK;
-        default: return bad_option("run", argv, c);
+        default: return tl_cli_bad_option("run", argv, c);
         }
     }
     if (argc - optind > 1)
-        return usage_error("run", "expected at most one scenario file, got also '%s'", argv[optind + 1]);
+        return tl_cli_usage("run", "expected at most one scenario file, got also '%s'", argv[optind + 1]);
     tl_scenario s;
     tl_scenario_default(&s);
     char err[1024];
@@ -140,7 +123,7 @@ static int cmd_run(int argc, char **argv)
         char *end = NULL;
         const double v = strtod(drive, &end);
         if (end == drive || *end != '\0' || !(v >= -40.0 && v <= 12.0))
-            return usage_error("run", "--drive: '%s' is not a number of dB from -40 to 12", drive);
+            return tl_cli_usage("run", "--drive: '%s' is not a number of dB from -40 to 12", drive);
         s.drive_db = v;
     }
     if (dir == NULL)
@@ -193,13 +176,13 @@ static int cmd_scenario(int argc, char **argv)
         case 'c': check = optarg; break;
         case 'q': quiet = 1; break;
         case 'h': fputs(scenario_help, stdout); return EXIT_OK;
-        default: return bad_option("scenario", argv, c);
+        default: return tl_cli_bad_option("scenario", argv, c);
         }
     }
     if (optind < argc)
-        return usage_error("scenario", "unexpected argument '%s'", argv[optind]);
+        return tl_cli_usage("scenario", "unexpected argument '%s'", argv[optind]);
     if (print == (check != NULL))
-        return usage_error("scenario", "give exactly one of --print or --check FILE%s", "");
+        return tl_cli_usage("scenario", "give exactly one of --print or --check FILE%s", "");
     tl_scenario s;
     tl_scenario_default(&s);
     if (check != NULL) {
@@ -243,15 +226,15 @@ static int cmd_tables(int argc, char **argv)
         case 'w': tw = optarg; break;
         case 't': ts = optarg; break;
         case 'h': fputs(tables_help, stdout); return EXIT_OK;
-        default: return bad_option("tables", argv, c);
+        default: return tl_cli_bad_option("tables", argv, c);
         }
     }
     if ((out != NULL) + (tw != NULL) + (ts != NULL) != 1)
-        return usage_error("tables", "give exactly one of -o FILE, --twiddle-source FILE, --taps-source FILE%s", "");
+        return tl_cli_usage("tables", "give exactly one of -o FILE, --twiddle-source FILE, --taps-source FILE%s", "");
     char err[1024];
     if (tw != NULL || ts != NULL) {
         if (optind < argc)
-            return usage_error("tables", "unexpected argument '%s'", argv[optind]);
+            return tl_cli_usage("tables", "unexpected argument '%s'", argv[optind]);
         if (tl_gen_write_file(tw ? tw : ts, tw ? tl_gen_twiddle_source : tl_gen_default_taps_source, err,
                               sizeof err) != 0) {
             fprintf(stderr, "tidelock tables: %s\n", err);
@@ -260,7 +243,7 @@ static int cmd_tables(int argc, char **argv)
         return EXIT_OK;
     }
     if (argc - optind > 1)
-        return usage_error("tables", "expected at most one scenario file, got also '%s'", argv[optind + 1]);
+        return tl_cli_usage("tables", "expected at most one scenario file, got also '%s'", argv[optind + 1]);
     tl_scenario s;
     tl_scenario_default(&s);
     if (optind < argc && tl_scenario_load(argv[optind], &s, err, sizeof err) != 0) {

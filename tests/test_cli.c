@@ -25,13 +25,6 @@ static int run(const char *args, char *out, size_t cap)
     return tl_test_tool(argv0, args, out, cap);
 }
 
-static int lines(const char *s)
-{
-    int n = 0;
-    for (; *s; s++)
-        n += *s == '\n';
-    return n;
-}
 
 static void expect_one_line(const char *args, int want_rc, const char *must_contain)
 {
@@ -39,7 +32,7 @@ static void expect_one_line(const char *args, int want_rc, const char *must_cont
     const int rc = run(args, out, sizeof out);
     printf("    tidelock %s -> %d: %s", args, rc, out);
     assert_int_equal(rc, want_rc);
-    assert_int_equal(lines(out), 1);
+    assert_int_equal(tl_test_lines(out), 1);
     if (strstr(out, must_contain) == NULL)
         fail_msg("message '%s' does not name '%s'", out, must_contain);
 }
@@ -80,7 +73,7 @@ static void test_help_and_version(void **state)
         assert_true(strstr(out, "options:") != NULL || strstr(out, "commands:") != NULL);
     }
     assert_int_equal(run("--version", out, sizeof out), 0);
-    assert_int_equal(lines(out), 1);
+    assert_int_equal(tl_test_lines(out), 1);
     assert_non_null(strstr(out, "tidelock "));
     assert_non_null(strstr(out, "arithmetic spec 1"));
 }

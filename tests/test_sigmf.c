@@ -57,13 +57,6 @@ static int run(const char *args, char *out, size_t cap)
     return tl_test_tool(argv0, args, out, cap);
 }
 
-static int lines(const char *s)
-{
-    int n = 0;
-    for (; *s; s++)
-        n += *s == '\n';
-    return n;
-}
 
 static void write_file(const char *path, const void *bytes, size_t n)
 {
@@ -511,7 +504,7 @@ static void expect_refused(const char *dir, const char *args, const char *const 
     const int rc = run(cmd, out, sizeof out);
     printf("    tidelock %.60s... -> %d: %s", args, rc, out);
     assert_int_equal(rc, 1);
-    assert_int_equal(lines(out), 1);
+    assert_int_equal(tl_test_lines(out), 1);
     for (; *pieces != NULL; pieces++)
         if (strstr(out, *pieces) == NULL)
             fail_msg("message '%s' does not name '%s'", out, *pieces);
@@ -617,7 +610,7 @@ static void test_bad_recordings_refused(void **state)
         const int rc = run(args, out, sizeof out);
         printf("    tidelock simulate ... -> %d: %s", rc, out);
         assert_int_equal(rc, 1);
-        assert_int_equal(lines(out), 1);
+        assert_int_equal(tl_test_lines(out), 1);
         assert_non_null(strstr(out, "missing/rec.sigmf-data"));
         assert_int_equal(count_files(dir), before);
     }
@@ -657,13 +650,13 @@ static void test_help_and_usage(void **state)
         const int rc = run(bad[i].args, out, sizeof out);
         printf("    tidelock %s -> %d: %s", bad[i].args, rc, out);
         assert_int_equal(rc, 2);
-        assert_int_equal(lines(out), 1);
+        assert_int_equal(tl_test_lines(out), 1);
         if (strstr(out, bad[i].piece) == NULL)
             fail_msg("message '%s' does not name '%s'", out, bad[i].piece);
     }
     const int rc = run("replay /nonexistent/r.sigmf-meta", out, sizeof out);
     assert_int_equal(rc, 1);
-    assert_int_equal(lines(out), 1);
+    assert_int_equal(tl_test_lines(out), 1);
     assert_non_null(strstr(out, "/nonexistent/r.sigmf-meta: cannot open"));
 }
 

@@ -130,3 +130,11 @@ int tl_test_tool(const char *argv0, const char *args, char *out, size_t cap)
     snprintf(cmd, sizeof cmd, "%s/tidelock %s 2>&1", dirname(self), args);
     return tl_test_shell(cmd, out, cap);
 }
+
+int tl_test_lines(const char *s)
+{
+    int n = 0;
+    for (; *s; s++)
+        n += *s == '\n';
+    return n;
+}

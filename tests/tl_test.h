@@ -49,6 +49,9 @@ int tl_test_shell(const char *cmd, char *out, size_t cap);
  * `args`, stderr and stdout into out. Returns the exit status. */
 int tl_test_tool(const char *argv0, const char *args, char *out, size_t cap);
 
+/* Number of newlines in s. */
+int tl_test_lines(const char *s);
+
 /* Assert |a - b| <= tol with a message naming both values. */
 #define TL_ASSERT_NEAR(a, b, tol)                                                                                    \
     do {                                                                                                              \
