@@ -2,7 +2,7 @@
 # deps.sh - install the Debian packages tidelock needs, only those missing.
 # Uses sudo when not root. --no-install-recommends keeps the install small.
 set -euo pipefail
-pkgs=(gcc make pkg-config libfftw3-dev libcmocka-dev libjansson-dev libinih-dev python3-numpy)
+pkgs=(gcc make pkg-config libfftw3-dev libcmocka-dev libjansson-dev libinih-dev liblz4-dev python3-numpy)
 missing=()
 for p in "${pkgs[@]}"; do
     dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed" || missing+=("$p")

@@ -23,6 +23,13 @@ const char *tl_status_name(tl_status st)
     case TL_E_EMPTY: return "TL_E_EMPTY";
     case TL_E_NOT_INIT: return "TL_E_NOT_INIT";
     case TL_E_SWITCH: return "TL_E_SWITCH";
+    case TL_E_PACKET_LEN: return "TL_E_PACKET_LEN";
+    case TL_E_APID: return "TL_E_APID";
+    case TL_E_SPACE: return "TL_E_SPACE";
+    case TL_E_FRAME_LEN: return "TL_E_FRAME_LEN";
+    case TL_E_ENCODING: return "TL_E_ENCODING";
+    case TL_E_NOISE_FRACTION: return "TL_E_NOISE_FRACTION";
+    case TL_E_FORMAT: return "TL_E_FORMAT";
     }
     return "TL_E_UNKNOWN";
 }
@@ -49,6 +56,13 @@ const char *tl_status_text(tl_status st)
     case TL_E_EMPTY: return "no finished integration is waiting";
     case TL_E_NOT_INIT: return "context used before a successful init";
     case TL_E_SWITCH: return "switch sequence needs 0 to 8 steps, states 0 to 2, dwells of at least 1 spectrum and a discard below every dwell";
+    case TL_E_PACKET_LEN: return "maximum space packet length outside its allowed range";
+    case TL_E_APID: return "APID outside 0 to 2046 (2047 is reserved for idle packets)";
+    case TL_E_SPACE: return "output buffer too small for the result";
+    case TL_E_FRAME_LEN: return "transfer frame length outside its allowed range";
+    case TL_E_ENCODING: return "spectral encoding or its parameters not supported";
+    case TL_E_NOISE_FRACTION: return "noise fraction outside its allowed range";
+    case TL_E_FORMAT: return "received bytes do not follow the format (length, header or CRC)";
     }
     return "unknown status";
 }

@@ -28,7 +28,14 @@ typedef enum tl_status {
     TL_E_BUSY = 15,       /* a finished integration is waiting: take it before pushing more */
     TL_E_EMPTY = 16,      /* no finished integration to take */
     TL_E_NOT_INIT = 17,   /* context used before a successful init */
-    TL_E_SWITCH = 18      /* switch sequence: steps 0..8, state 0..2, dwell >= 1, discard below every dwell */
+    TL_E_SWITCH = 18,     /* switch sequence: steps 0..8, state 0..2, dwell >= 1, discard below every dwell */
+    TL_E_PACKET_LEN = 19, /* maximum space packet length outside its allowed range */
+    TL_E_APID = 20,       /* APID outside 0..2046 (2047 is reserved for idle packets) */
+    TL_E_SPACE = 21,      /* the caller's output buffer is too small for the result */
+    TL_E_FRAME_LEN = 22,  /* transfer frame length outside its allowed range */
+    TL_E_ENCODING = 23,   /* spectral encoding or its parameters not supported */
+    TL_E_NOISE_FRACTION = 24, /* noise-bounded encoding: noise fraction outside its allowed range */
+    TL_E_FORMAT = 25      /* received bytes do not follow the format (length, header or CRC) */
 } tl_status;
 
 /* Short constant name of a status ("TL_E_POINTS"); never NULL. */
