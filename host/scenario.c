@@ -165,7 +165,7 @@ static void sync_derived(tl_scenario *s)
     s->sky.inputs = s->cfg.inputs;
 }
 
-void tl_scenario_default(tl_scenario *s)
+void tl_scenario_nominal(tl_scenario *s)
 {
     memset(s, 0, sizeof *s);
     snprintf(s->name, sizeof s->name, "hushfield-nominal");
@@ -186,6 +186,33 @@ void tl_scenario_default(tl_scenario *s)
     s->write_csv = 1;
     s->write_npy = 1;
     s->fit_order = 5;
+    sync_derived(s);
+}
+
+void tl_scenario_default(tl_scenario *s)
+{
+    tl_scenario_nominal(s);
+    snprintf(s->name, sizeof s->name, "hushfield-dark-ages");
+    snprintf(s->description, sizeof s->description,
+             "Hushfield lander (invented), HLS-1: dark-ages band, sky with turnover, a 40 mK trough, "
+             "switched-load calibration");
+    s->spectra = 8192u;
+    s->sky.turnover_hz = 3e6;
+    s->sky.trough_depth_k = 0.04;
+    s->sky.trough_centre_hz = 17e6;
+    s->sky.trough_width_hz = 8e6;
+    s->sky.noise_excess_k = 100000.0;
+    s->band_lo_hz = 5e6;
+    s->band_hi_hz = 30e6;
+    /* antenna 64, load 32, noise 32 spectra, 3 discarded after each change */
+    s->cfg.switch_steps = 3u;
+    s->cfg.switch_state[0] = TL_STATE_ANTENNA;
+    s->cfg.switch_dwell[0] = 64u;
+    s->cfg.switch_state[1] = TL_STATE_LOAD;
+    s->cfg.switch_dwell[1] = 32u;
+    s->cfg.switch_state[2] = TL_STATE_NOISE;
+    s->cfg.switch_dwell[2] = 32u;
+    s->cfg.switch_discard = 3u;
     sync_derived(s);
 }
 

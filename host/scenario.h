@@ -49,8 +49,15 @@ typedef struct tl_scenario {
     uint32_t fit_order;       /* log-polynomial order of the foreground under a trough */
 } tl_scenario;
 
-/* The built-in default. */
+/* The built-in default (docs/scenario-default.ini): the dark-ages band of
+ * the invented far-side lander, a sky with its low-frequency turnover, a
+ * 40 mK trough at 17 MHz, and switched-load calibration. */
 void tl_scenario_default(tl_scenario *s);
+
+/* The chain-fidelity configuration (docs/scenario-nominal.ini): antenna
+ * only, 4096 spectra, a plain power-law sky, science band 10 to 40 MHz.
+ * The fidelity figures of docs/validation.md are measured on it. */
+void tl_scenario_nominal(tl_scenario *s);
 
 /* Read FILE over the defaults in *s (call tl_scenario_default first).
  * Returns 0, or -1 with one line in err (cap bytes): file, line, section,

@@ -24,7 +24,7 @@ static void test_sixteen_bit_data_path_fails(void **state)
 {
     (void)state;
     tl_scenario s;
-    tl_scenario_default(&s);
+    tl_scenario_nominal(&s);
     s.spectra = 1024u; /* the failure is gross; a shorter run shows it */
     s.blocks = 16u;
     tl_run_result *r = calloc(1, sizeof *r);

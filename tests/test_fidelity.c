@@ -21,7 +21,7 @@
 static tl_run_result *run_at(double drive_db, uint32_t rounding, uint32_t det_shift)
 {
     tl_scenario s;
-    tl_scenario_default(&s);
+    tl_scenario_nominal(&s);
     s.drive_db = drive_db;
     s.cfg.rounding = rounding;
     s.cfg.det_shift = det_shift;
@@ -129,7 +129,7 @@ static void test_high_precision_few_channels(void **state)
 {
     (void)state;
     tl_scenario s;
-    tl_scenario_default(&s);
+    tl_scenario_nominal(&s);
     s.cfg.points = 256;
     s.spectra = 65536;
     s.cfg.integration = 65536;

@@ -51,11 +51,11 @@ static void write_tmp(char path[TMP_PATH], const char *text, size_t len)
     }
 }
 
-/* Load text over the defaults from a temporary file (removed before return). */
+/* Load text over the nominal scenario (a fixed base for these tests) from a temporary file (removed before return). */
 static int load_text(const char *text, size_t len, tl_scenario *s, char path[TMP_PATH], char *err, size_t cap)
 {
     write_tmp(path, text, len);
-    tl_scenario_default(s);
+    tl_scenario_nominal(s);
     err[0] = '\0';
     const int rc = tl_scenario_load(path, s, err, cap);
     remove(path);
@@ -231,7 +231,7 @@ static void test_default_file_loads_as_default(void **state)
  * 2048 spectra are 64 blocks of 32; extrapolate_to 0 means none. */
 static void modified(tl_scenario *s)
 {
-    tl_scenario_default(s);
+    tl_scenario_nominal(s);
     snprintf(s->name, sizeof s->name, "round-trip_2.test");
     snprintf(s->description, sizeof s->description,
              "Round trip: every key changed; commas, (brackets) = signs & 100%%");
@@ -278,7 +278,7 @@ static void test_round_trip_every_key(void **state)
     tl_scenario mod, back, def;
     char err[ERR_CAP] = "";
     modified(&mod);
-    tl_scenario_default(&def);
+    tl_scenario_nominal(&def);
     assert_int_equal(tl_scenario_check(&mod, NULL, err, sizeof err), 0);
     char *text = written(&mod);
     char *deftext = written(&def);
@@ -389,7 +389,7 @@ static void check_valid_end(const bound *b, const char *value, const char *with)
     char text[1024], line[512];
     snprintf(text, sizeof text, "[%s]\n%s = %s\n%s", b->section, b->key, value, with);
     tl_scenario s, def;
-    tl_scenario_default(&def);
+    tl_scenario_nominal(&def);
     expect_loads(text, &s);
     char *out = written(&s), *defout = written(&def);
     snprintf(line, sizeof line, "\n%s = %s\n", b->key, value);
@@ -464,7 +464,7 @@ static void test_documented_ends_no_file_reaches(void **state)
      * its written form reads back */
     tl_scenario s;
     char err[ERR_CAP] = "";
-    tl_scenario_default(&s);
+    tl_scenario_nominal(&s);
     memset(s.folder, 'f', 180);
     s.folder[180] = '\0';
     if (tl_scenario_check(&s, NULL, err, sizeof err) != 0)
@@ -669,7 +669,7 @@ static void test_empty_and_comment_files_are_default(void **state)
 {
     (void)state;
     tl_scenario s, def;
-    tl_scenario_default(&def);
+    tl_scenario_nominal(&def);
     expect_loads("", &s);
     assert_scenario_equal(&s, &def, "empty file");
     expect_loads("# only a comment\n\n", &s);
@@ -726,7 +726,7 @@ static void test_missing_file(void **state)
     write_tmp(path, "", 0);
     remove(path);
     tl_scenario s;
-    tl_scenario_default(&s);
+    tl_scenario_nominal(&s);
     assert_int_equal(tl_scenario_load(path, &s, err, sizeof err), -1);
     snprintf(want, sizeof want, "%s: cannot open: No such file or directory", path);
     assert_string_equal(err, want);
@@ -815,57 +815,57 @@ static void test_check_struct(void **state)
     (void)state;
     tl_scenario s;
     char err[ERR_CAP] = "";
-    tl_scenario_default(&s);
+    tl_scenario_nominal(&s);
     assert_int_equal(tl_scenario_check(&s, NULL, err, sizeof err), 0);
     assert_int_equal(tl_scenario_check(&s, "x.ini", err, sizeof err), 0);
 
-    tl_scenario_default(&s);
+    tl_scenario_nominal(&s);
     s.cfg.adc_bits = 20;
     check_fails(&s, NULL, "scenario: [instrument] adc_bits = '20': must be an integer from 8 to 16 bits");
-    tl_scenario_default(&s);
+    tl_scenario_nominal(&s);
     s.sky.coherence = 1.5;
     check_fails(&s, "my.ini", "my.ini: [sky] coherence = '1.5': must be a number from 0 to 1");
-    tl_scenario_default(&s);
+    tl_scenario_nominal(&s);
     s.sky.sample_rate_hz = 0.0;
     check_fails(&s, NULL,
                 "scenario: [instrument] sample_rate_mhz = '0': must be a number from 1 to 1000 MHz");
-    tl_scenario_default(&s);
+    tl_scenario_nominal(&s);
     s.window = 9;
     check_fails(&s, NULL,
                 "scenario: [instrument] window = '?': must be one of rectangular, hann, hamming, blackman, "
                 "blackman-harris4");
-    tl_scenario_default(&s);
+    tl_scenario_nominal(&s);
     s.cfg.points = 128;
     check_fails(&s, NULL, "scenario: [instrument] channels = '64': must be a power of two from 128 to 8192");
-    tl_scenario_default(&s);
+    tl_scenario_nominal(&s);
     s.cfg.det_shift = 41;
     check_fails(&s, NULL,
                 "scenario: [instrument] detection_shift = '41': must be auto, or an integer from 0 to 40 bits");
-    tl_scenario_default(&s);
+    tl_scenario_nominal(&s);
     s.sky.seed = 1ull << 32;
     check_fails(&s, NULL, "scenario: [sky] seed = '4294967296': must be an integer from 0 to 4294967295");
-    tl_scenario_default(&s);
+    tl_scenario_nominal(&s);
     s.sky.seed = UINT64_MAX;
     check_fails(&s, NULL,
                 "scenario: [sky] seed = '18446744073709551615': must be an integer from 0 to 4294967295");
-    tl_scenario_default(&s);
+    tl_scenario_nominal(&s);
     snprintf(s.name, sizeof s.name, "has space");
     check_fails(&s, NULL,
                 "scenario: [scenario] name = 'has space': must be 1 to 63 of letters, digits, '.', '_', '-'");
-    tl_scenario_default(&s);
+    tl_scenario_nominal(&s);
     s.folder[0] = '\0';
     check_fails(&s, NULL, "scenario: [output] folder = '': must be text of 1 to 180 characters");
     /* the first key of the table that is out of range is named */
-    tl_scenario_default(&s);
+    tl_scenario_nominal(&s);
     s.cfg.taps = 0;
     s.blocks = 2;
     check_fails(&s, NULL, "scenario: [instrument] taps = '0': must be an integer from 1 to 16");
     /* relations, after every key is in range */
-    tl_scenario_default(&s);
+    tl_scenario_nominal(&s);
     s.blocks = 100;
     check_fails(&s, NULL,
                 "scenario: [integration] spectra = '4096': must be a multiple of [fidelity] blocks = 100");
-    tl_scenario_default(&s);
+    tl_scenario_nominal(&s);
     s.cfg.fft_scale_mask = 0x2000;
     check_fails(&s, "c.ini",
                 "c.ini: [instrument] fft_scaling = '0x2000': must be auto or at most 0x1FFF for 4096 "
@@ -1008,7 +1008,7 @@ static void test_reals_round_trip_exactly(void **state)
     (void)state;
     tl_scenario a, b;
     char err[ERR_CAP] = "";
-    tl_scenario_default(&a);
+    tl_scenario_nominal(&a);
     a.sky.sky_index = 2.123456789012345;
     a.sky.coherence = 0.1 + 0.2; /* not 0.3 in binary */
     char *text = written(&a);
@@ -1089,16 +1089,20 @@ static void test_interference_lists(void **state)
 static void test_shipped_scenarios_load(void **state)
 {
     (void)state;
-    const char *files[] = { "docs/scenario-default.ini", "docs/scenario-dark-ages.ini", "docs/scenario-ground.ini" };
+    const char *files[] = { "docs/scenario-default.ini", "docs/scenario-ground.ini", "docs/scenario-nominal.ini" };
     for (size_t i = 0; i < sizeof files / sizeof files[0]; i++) {
         tl_scenario s;
         char err[ERR_CAP] = "";
         tl_scenario_default(&s);
         if (tl_scenario_load(files[i], &s, err, sizeof err) != 0)
             fail_msg("%s does not load: %s", files[i], err);
-        if (i > 0) { /* the examples switch and carry a trough */
+        if (i < 2) { /* the default and the ground example switch and carry a trough */
             assert_int_equal(s.cfg.switch_steps, 3);
             assert_true(s.sky.trough_depth_k > 0.0);
+        } else { /* the chain-fidelity file is exactly tl_scenario_nominal */
+            tl_scenario nom;
+            tl_scenario_nominal(&nom);
+            assert_scenario_equal(&s, &nom, files[i]);
         }
     }
 }

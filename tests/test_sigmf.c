@@ -170,10 +170,11 @@ static json_int_t summary_int(const char *path, const char *obj, const char *key
     return v;
 }
 
-/* A small scenario: 256 channels, 1024 spectra in 16 blocks, +6 dB so the
+/* A small scenario: 256 channels, 1024 spectra in 16 blocks, antenna only, +6 dB so the
  * ADC clips a few dozen samples (the counts are compared too). */
 static const char *const small_ini = "[instrument]\nchannels = 256\n[integration]\nspectra = 1024\n"
-                                     "[sky]\ndrive_db = 6\n[fidelity]\nblocks = 16\n[output]\ncsv = true\nnpy = true\n";
+                                     "[sky]\ndrive_db = 6\n[fidelity]\nblocks = 16\n[switching]\nsequence = off\ndiscard = 0\n"
+                                     "[output]\ncsv = true\nnpy = true\n";
 
 /* ---- datatype grammar ---------------------------------------------------------- */
 
@@ -1149,7 +1150,7 @@ static void test_replay_complex_cli(void **state)
                      " \"annotations\": []}\n");
     snprintf(ini, sizeof ini, "%s/s.ini", dir);
     write_text(ini, "[instrument]\nchannels = 256\ninputs = 1\n[integration]\nspectra = 64\n[fidelity]\nblocks = 8\n"
-                    "extrapolate_to = 0\n[output]\ncsv = false\n");
+                    "extrapolate_to = 0\n[switching]\nsequence = off\ndiscard = 0\n[output]\ncsv = false\n");
     snprintf(args, sizeof args, "replay %s/cx.sigmf-meta %s -o %s/o", dir, ini, dir);
     const int rc = run(args, out, sizeof out);
     printf("%s", out);
@@ -1169,7 +1170,7 @@ static void test_replay_complex_cli(void **state)
     expect_refused(dir, args, p);
     snprintf(ini, sizeof ini, "%s/r.ini", dir);
     write_text(ini, "[instrument]\nchannels = 256\ninputs = 1\nsample_rate_mhz = 51.2\n[integration]\nspectra = 64\n"
-                    "[fidelity]\nblocks = 8\nband_high_mhz = 25\n");
+                    "[fidelity]\nblocks = 8\nband_high_mhz = 25\n[switching]\nsequence = off\ndiscard = 0\n");
     snprintf(args, sizeof args, "replay %s/cx.sigmf-meta %s", dir, ini);
     const char *q[] = { "core:sample_rate = 51200000 Hz (ci16_le: read at twice the rate)", "51.2", NULL };
     expect_refused(dir, args, q);
