@@ -5,6 +5,9 @@
  *   DIR/scenario.ini   the scenario as resolved
  *   DIR/auto<i>.csv, cross.csv, *.npy   the integrated spectra (spectra_out.h),
  *                      as the scenario's [output] csv and npy keys ask
+ *   DIR/calibrated.csv, calibrated.npy   with a switch sequence: per channel
+ *                      the model's antenna temperature and each input's
+ *                      calibrated temperature and its noise, K
  * each through tl_atomic_write, so each appears whole or not at all.
  */
 #ifndef TL_HOST_RUN_OUTPUTS_H

@@ -217,7 +217,7 @@ static void test_copy_example_change_channels_load_in_numpy(void **state)
     assert_non_null(mkdtemp(dir));
     char cmd[2048], out[16384];
     snprintf(cmd, sizeof cmd,
-             "sed -e 's/^channels = 4096$/channels = 1024/' -e 's/^spectra = 4096$/spectra = 1024/' "
+             "sed -e 's/^channels = 4096$/channels = 1024/' -e 's/^spectra = 8192$/spectra = 1024/' "
              "docs/scenario-default.ini > %s/mine.ini && grep -c '^channels = 1024$' %s/mine.ini",
              dir, dir);
     FILE *p = popen(cmd, "r");
@@ -265,7 +265,8 @@ static void test_copy_example_change_channels_load_in_numpy(void **state)
 }
 
 /* The whole default run: exit 0, a summary that parses, carries the
- * verdict and the figures, the resolved scenario, the spectra, and no
+ * verdict and the figures, the resolved scenario, the spectra, the
+ * calibrated spectra against the model, and no
  * temporary file left in the folder; -q prints nothing. */
 static void test_run_writes_outputs(void **state)
 {
@@ -289,9 +290,42 @@ static void test_run_writes_outputs(void **state)
     assert_true(margin > 0.0 && margin < 0.01);
     assert_true(ext > 0.0 && ext < 0.01);
     assert_int_equal(json_integer_value(json_object_get(json_object_get(root, "config"), "channels")), 4096);
+    /* the default switches: each input's calibrated spectrum against the
+     * model, chi2 per channel near 1 (2000 channels: 1 +- 3 sqrt(2/2000)) */
+    const json_t *cal_in = json_object_get(json_object_get(root, "calibration"), "inputs");
+    assert_int_equal(json_array_size(cal_in), 2);
+    double chi2_summary = 0.0;
+    for (size_t i = 0; i < 2; i++) {
+        const double c2 = json_real_value(json_object_get(json_array_get(cal_in, i), "chi2_per_channel"));
+        printf("    calibration input %zu: chi2/channel %.4f\n", i, c2);
+        assert_true(fabs(c2 - 1.0) < 3.0 * sqrt(2.0 / 2000.0));
+        if (i == 0)
+            chi2_summary = c2;
+    }
     json_decref(root);
-    const char *expected[] = { "summary.json", "scenario.ini", "auto0.csv", "auto1.csv", "cross.csv", "auto0.npy",
-                               "auto1.npy", "cross.npy", "flags.npy", "frequency_mhz.npy" };
+    /* calibrated.csv holds the same numbers: recompute input 0's chi2 over
+     * the science band, 5 to 30 MHz = channels 400 .. 2399 of 12.5 kHz */
+    snprintf(path, sizeof path, "%s/calibrated.csv", dir);
+    FILE *cf = fopen(path, "r");
+    assert_non_null(cf);
+    char line[512];
+    assert_non_null(fgets(line, sizeof line, cf));
+    assert_string_equal(line, "frequency_mhz,t_model_k,t_ant0_k,sigma0_k,t_ant1_k,sigma1_k\n");
+    double chi2 = 0.0;
+    unsigned rows = 0;
+    while (fgets(line, sizeof line, cf) != NULL) {
+        double fr, tm, ta, sg;
+        assert_int_equal(sscanf(line, "%lf,%lf,%lf,%lf", &fr, &tm, &ta, &sg), 4);
+        if (rows >= 400u && rows < 2400u)
+            chi2 += (ta - tm) * (ta - tm) / (sg * sg);
+        rows++;
+    }
+    fclose(cf);
+    assert_int_equal(rows, 4096);
+    TL_ASSERT_NEAR(chi2 / 2000.0, chi2_summary, 1e-6);
+    const char *expected[] = { "summary.json",  "scenario.ini", "auto0.csv",         "auto1.csv",
+                               "cross.csv",     "auto0.npy",    "auto1.npy",         "cross.npy",
+                               "flags.npy",     "frequency_mhz.npy", "calibrated.csv", "calibrated.npy" };
     const size_t nexp = sizeof expected / sizeof expected[0];
     DIR *d = opendir(dir);
     struct dirent *e;
