@@ -17,7 +17,7 @@ HOST_LIBS := -lfftw3 -ljansson -linih -llz4 -lm
 TEST_LIBS := -lcmocka
 
 FW_SRC := $(sort $(wildcard firmware/*.c))
-HOST_LIB_SRC := $(filter-out host/tidelock_main.c host/tablegen_main.c,$(sort $(wildcard host/*.c)))
+HOST_LIB_SRC := $(filter-out host/tidelock_main.c host/tablegen_main.c host/bench_main.c,$(sort $(wildcard host/*.c)))
 TEST_SRC := $(sort $(wildcard tests/test_*.c))
 TEST_SUPPORT_SRC := $(filter-out $(TEST_SRC) tests/degraded_%.c,$(sort $(wildcard tests/*.c)))
 TESTS := $(patsubst tests/%.c,%,$(TEST_SRC))
@@ -51,6 +51,8 @@ $(BUILD)/$(1)/firmware $(BUILD)/$(1)/host $(BUILD)/$(1)/tests:
 $(BUILD)/$(1)/libtl.a: $(call objs,$(1),$(FW_SRC) $(HOST_LIB_SRC))
 	rm -f $$@ && ar rcs $$@ $$^
 $(BUILD)/$(1)/tidelock: $(BUILD)/$(1)/host/tidelock_main.o $(BUILD)/$(1)/libtl.a
+	$$(CC) $$($(1)_LD) $$^ $(HOST_LIBS) -o $$@
+$(BUILD)/$(1)/tl-bench: $(BUILD)/$(1)/host/bench_main.o $(BUILD)/$(1)/libtl.a
 	$$(CC) $$($(1)_LD) $$^ $(HOST_LIBS) -o $$@
 $(BUILD)/$(1)/test_%: $(BUILD)/$(1)/tests/test_%.o $(call objs,$(1),$(TEST_SUPPORT_SRC)) $(BUILD)/$(1)/libtl.a
 	$$(CC) $$($(1)_LD) $$^ $(TEST_LIBS) $(HOST_LIBS) -o $$@
@@ -103,7 +105,7 @@ install: all $(FW_LIB) ## install the CLI, firmware library, headers, pkg-config
 	    > $(DESTDIR)$(PREFIX)/lib/pkgconfig/tidelock-firmware.pc
 
 # ---- user targets ---------------------------------------------------------
-.PHONY: all run test test-rel test-san test-deg purity tables deps help clean install
+.PHONY: all run test test-rel test-san test-deg purity tables deps help clean install bench
 all: $(BUILD)/rel/tidelock $(BUILD)/purity/ok ## build the CLI and check firmware purity
 	ln -sf rel/tidelock $(BUILD)/tidelock
 
@@ -138,6 +140,10 @@ test-deg: $(BUILD)/deg/test_degraded ## the must-fail degraded build only
 tables: $(BUILD)/tl-tablegen ## regenerate the committed firmware tables
 	$(BUILD)/tl-tablegen twiddle firmware/tl_twiddle_table.c
 	$(BUILD)/tl-tablegen taps firmware/tl_taps_default.c
+
+BENCH_GIB ?= 2
+bench: $(BUILD)/rel/tl-bench $(BUILD)/rel/tidelock ## speed and memory table (BENCH_GIB=2: size of the replayed recording, 0 skips)
+	$(BUILD)/rel/tl-bench --tidelock $(BUILD)/rel/tidelock --replay-gib $(BENCH_GIB) --json $(BUILD)/bench.json
 
 purity: $(BUILD)/purity/ok ## check firmware objects for float/libm/malloc/stdio
 
