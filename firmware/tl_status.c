@@ -30,6 +30,9 @@ const char *tl_status_name(tl_status st)
     case TL_E_ENCODING: return "TL_E_ENCODING";
     case TL_E_NOISE_FRACTION: return "TL_E_NOISE_FRACTION";
     case TL_E_FORMAT: return "TL_E_FORMAT";
+    case TL_E_APID_FULL: return "TL_E_APID_FULL";
+    case TL_E_TIME_RANGE: return "TL_E_TIME_RANGE";
+    case TL_E_FIELD_RANGE: return "TL_E_FIELD_RANGE";
     }
     return "TL_E_UNKNOWN";
 }
@@ -63,6 +66,9 @@ const char *tl_status_text(tl_status st)
     case TL_E_ENCODING: return "spectral encoding or its parameters not supported";
     case TL_E_NOISE_FRACTION: return "noise fraction outside its allowed range";
     case TL_E_FORMAT: return "received bytes do not follow the format (length, header or CRC)";
+    case TL_E_APID_FULL: return "packet writer: no free sequence counter for another APID";
+    case TL_E_TIME_RANGE: return "time code: sample rate 0, or a time beyond 2^32 - 1 coarse seconds";
+    case TL_E_FIELD_RANGE: return "a header field is wider than its bits (APID, SCID, VCID, count or flag)";
     }
     return "unknown status";
 }
