@@ -1,5 +1,6 @@
 /* tl_chain.c - the spectrometer chain (see tl_chain.h). */
 #include "tl_chain.h"
+#include <string.h>
 
 void tl_config_default(tl_config *cfg)
 {
@@ -54,7 +55,7 @@ static void start_integration(tl_chain *c)
         tl_integrate_reset(&c->integ[s], c->cfg.points / 2u);
     c->spectra = 0;
     c->discarded = 0;
-    c->stats = (tl_stats){ { 0 }, { 0 }, { { 0 } }, { 0 } };
+    memset(&c->stats, 0, sizeof c->stats);
     c->first_frame = 0;
     c->ready = 0;
 }
@@ -147,13 +148,23 @@ static void copy_in(tl_chain *c, uint32_t input, const int16_t *src, uint32_t n)
 {
     int16_t *dst = tl_pfb_next_frame(&c->pfb[input]) + c->fill;
     const int16_t hi = (int16_t)c->clip_hi;
+    const int32_t div = (int32_t)1 << (16u - c->cfg.adc_bits);
     uint32_t clips = 0;
+    uint32_t hist[TL_ADC_HIST_BINS] = { 0 };
+    uint64_t sumsq = 0; /* n <= 16384 codes of |code| <= 2^15: < 2^45 */
     for (uint32_t i = 0; i < n; i++) {
         const int16_t v = src[i];
         clips += (uint32_t)(v >= hi) + (uint32_t)(v == INT16_MIN);
+        hist[(uint32_t)((int32_t)v + 32768) >> 12]++;
+        const int32_t code = (int32_t)v / div; /* exact for left-aligned codes */
+        sumsq += (uint64_t)((int64_t)code * code);
         dst[i] = v;
     }
     tl_count_add(&c->stats.adc_clips[input], clips);
+    for (uint32_t b = 0; b < TL_ADC_HIST_BINS; b++)
+        tl_count_add(&c->stats.adc_hist[input][b], hist[b]);
+    uint64_t *acc = &c->stats.adc_sumsq[input];
+    *acc = (UINT64_MAX - *acc < sumsq) ? UINT64_MAX : *acc + sumsq;
 }
 
 /* A frame is complete on every input: filter, transform, detect, and

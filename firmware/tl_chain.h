@@ -54,8 +54,14 @@ typedef struct tl_config {
 } tl_config;
 
 /* Counters of one integration. Counts saturate at UINT32_MAX. */
+#define TL_ADC_HIST_BINS 16u /* coarse ADC histogram: bin = (code word + 32768) >> 12 */
+
 typedef struct tl_stats {
     uint32_t adc_clips[TL_MAX_INPUTS];   /* samples at the ADC's most negative or most positive code */
+    uint64_t adc_sumsq[TL_MAX_INPUTS];   /* sum of code^2, code = ADC code (word / 2^(16 - adc_bits));
+                                          * saturates at UINT64_MAX (a 16-bit ADC at full scale can
+                                          * reach it after 2^34 samples; 1/8 of full scale never) */
+    uint32_t adc_hist[TL_MAX_INPUTS][TL_ADC_HIST_BINS]; /* samples per sixteenth of the code range */
     uint32_t pfb_sat[TL_MAX_INPUTS];     /* filterbank outputs saturated */
     uint32_t fft_sat[TL_MAX_INPUTS][TL_MAX_FFT_STAGES + 1u]; /* per stage; split at [fft_stages] */
     uint32_t acc_sat[4];                 /* channels whose sum saturated: auto0, auto1, cross re, cross im */

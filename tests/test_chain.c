@@ -248,10 +248,39 @@ static void test_nominal_noise_counters_zero(void **state)
     tl_product *p = tl_test_product();
     assert_int_equal(tl_chain_init(c, &cfg, NULL, 0), TL_OK);
     assert_int_equal(tl_test_push_all(c, in0, in1, n, p), 1);
-    const tl_stats zero = { { 0 }, { 0 }, { { 0 } }, { 0 } };
-    assert_memory_equal(&p->stats, &zero, sizeof zero);
+    /* every saturation counter zero (the ADC statistics are not counters) */
+    tl_stats zero;
+    memset(&zero, 0, sizeof zero);
+    assert_memory_equal(p->stats.adc_clips, zero.adc_clips, sizeof zero.adc_clips);
+    assert_memory_equal(p->stats.pfb_sat, zero.pfb_sat, sizeof zero.pfb_sat);
+    assert_memory_equal(p->stats.fft_sat, zero.fft_sat, sizeof zero.fft_sat);
+    assert_memory_equal(p->stats.acc_sat, zero.acc_sat, sizeof zero.acc_sat);
     for (uint32_t k = 0; k < N / 2u; k++)
         assert_int_equal(p->flags[k], 0);
+    /* the ADC statistics cover exactly the samples of the integration's
+     * frames ((3 + M) frames of N: the first 3 fill the filterbank history
+     * and belong to this first integration too), recomputed here directly:
+     * sum of code^2 with code = word / 4 (14-bit ADC), the histogram by the
+     * top 4 bits of the offset-binary word */
+    for (unsigned in = 0; in < 2u; in++) {
+        const int16_t *x = in ? in1 : in0;
+        uint64_t ss = 0, hist[TL_ADC_HIST_BINS] = { 0 }, total = 0;
+        for (size_t i = 0; i < n; i++) {
+            const int32_t code = x[i] / 4;
+            ss += (uint64_t)((int64_t)code * code);
+            hist[(uint32_t)(x[i] + 32768) >> 12]++;
+        }
+        assert_int_equal(p->stats.adc_sumsq[in], ss);
+        for (unsigned b = 0; b < TL_ADC_HIST_BINS; b++) {
+            assert_int_equal(p->stats.adc_hist[in][b], hist[b]);
+            total += p->stats.adc_hist[in][b];
+        }
+        assert_int_equal(total, n);
+        /* RMS 1/8 of full scale: 8192 codes full scale -> about 1024 */
+        const double rms = sqrt((double)ss / (double)n);
+        printf("    input %u: ADC RMS %.1f codes (expected about 1024)\n", in, rms);
+        assert_true(rms > 950.0 && rms < 1100.0);
+    }
     free(in0);
     free(in1);
     free(p);
