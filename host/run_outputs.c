@@ -33,7 +33,8 @@ static int write_scenario_file(FILE *f, void *ctx)
 
 typedef struct cal_file {
     const tl_scenario *s;
-    const tl_run_result *r;
+    const tl_product *p;
+    const tl_cal_report *c;
 } cal_file;
 
 /* A temperature, or "nan" where it is undefined (no sign, whatever the libc). */
@@ -50,8 +51,8 @@ static void put_kelvin(FILE *f, double t)
 static int write_calibrated_csv(FILE *f, void *ctx)
 {
     const cal_file *cf = ctx;
-    const tl_product *p = &cf->r->fid.product;
-    const tl_cal_report *c = &cf->r->cal;
+    const tl_product *p = cf->p;
+    const tl_cal_report *c = cf->c;
     const double df = tl_scenario_channel_hz(cf->s);
     fprintf(f, "frequency_mhz,t_model_k");
     for (uint32_t i = 0; i < p->inputs; i++)
@@ -73,9 +74,8 @@ static int write_calibrated_csv(FILE *f, void *ctx)
 
 /* calibrated.npy: float64 (channels, 1 + 2 x inputs): the same columns
  * without the frequency (frequency_mhz.npy has it). */
-static int write_calibrated_npy(const char *dir, const tl_scenario *s, const tl_run_result *r, char *err, size_t cap)
+static int write_calibrated_npy(const char *dir, const tl_product *p, const tl_cal_report *c, char *err, size_t cap)
 {
-    const tl_product *p = &r->fid.product;
     const size_t cols = 1u + 2u * p->inputs;
     double *m = malloc(sizeof *m * p->channels * cols);
     if (m == NULL) {
@@ -83,13 +83,12 @@ static int write_calibrated_npy(const char *dir, const tl_scenario *s, const tl_
         return -1;
     }
     for (uint32_t k = 0; k < p->channels; k++) {
-        m[k * cols] = r->cal.t_model[k];
+        m[k * cols] = c->t_model[k];
         for (uint32_t i = 0; i < p->inputs; i++) {
-            m[k * cols + 1u + 2u * i] = r->cal.t_ant[i][k];
-            m[k * cols + 2u + 2u * i] = r->cal.sigma[i][k];
+            m[k * cols + 1u + 2u * i] = c->t_ant[i][k];
+            m[k * cols + 2u + 2u * i] = c->sigma[i][k];
         }
     }
-    (void)s;
     char path[4400];
     snprintf(path, sizeof path, "%s/calibrated.npy", dir);
     const int rc = tl_npy_write(path, "<f8", p->channels, cols, m, err, cap);
@@ -109,13 +108,22 @@ int tl_run_outputs_write(const char *dir, const tl_scenario *s, const tl_run_res
     if (tl_spectra_write(dir, &r->fid.product, s->sky.sample_rate_hz, (int)s->write_csv, (int)s->write_npy, err,
                          cap) != 0)
         return -1;
-    if (r->cal.done && s->write_csv) {
-        cal_file cf = { s, r };
+    if (r->cal.done)
+        return tl_run_outputs_calibrated(dir, s, &r->fid.product, &r->cal, err, cap);
+    return 0;
+}
+
+int tl_run_outputs_calibrated(const char *dir, const tl_scenario *s, const tl_product *p, const tl_cal_report *c,
+                              char *err, size_t cap)
+{
+    char path[4400];
+    if (s->write_csv) {
+        cal_file cf = { s, p, c };
         snprintf(path, sizeof path, "%s/calibrated.csv", dir);
         if (tl_atomic_write(path, write_calibrated_csv, &cf, err, cap) != 0)
             return -1;
     }
-    if (r->cal.done && s->write_npy && write_calibrated_npy(dir, s, r, err, cap) != 0)
+    if (s->write_npy && write_calibrated_npy(dir, p, c, err, cap) != 0)
         return -1;
     return 0;
 }

@@ -27,6 +27,12 @@ int tl_run_outputs_folder(const char *dir, char *err, size_t cap);
  * it stay, the failing one is left absent or as it was. */
 int tl_run_outputs_write(const char *dir, const tl_scenario *s, const tl_run_result *r, char *err, size_t cap);
 
+/* calibrated.csv / calibrated.npy (as s's [output] keys ask) from a
+ * product and its calibration (tl_run_calibrate). Returns 0, or -1 with one
+ * line in err naming the file. */
+int tl_run_outputs_calibrated(const char *dir, const tl_scenario *s, const tl_product *p, const tl_cal_report *c,
+                              char *err, size_t cap);
+
 /* The closing line "wrote DIR/: summary.json, scenario.ini, ..." to out. */
 void tl_run_outputs_say(FILE *out, const char *dir, const tl_scenario *s);
 
