@@ -15,9 +15,9 @@ void tl_downlink_config_default(tl_downlink_config *cfg)
     cfg->apid_hk = 0x102u;
     cfg->max_packet = TL_PACKET_MAX_LEN;
     cfg->encoding = TL_ENCODE_ID_LOSSLESS;
-    cfg->transpose = TL_ENCODE_BYTE_SHUFFLE;
+    cfg->transpose = TL_ENCODE_BIT_PLANES;
     cfg->fraction_q16 = 8192u; /* f = 1/8 */
-    cfg->block = 16u;
+    cfg->block = 32u;
     cfg->sample_rate_hz = 102400000u;
 }
 

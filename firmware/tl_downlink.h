@@ -164,7 +164,8 @@ typedef struct tl_downlink {
 #define TL_DOWNLINK_MAGIC 0x544C444Cu
 
 /* Defaults: APIDs 0x101 (science) and 0x102 (housekeeping), 4095-octet
- * packets, lossless with byte shuffle, f = 1/8 and blocks of 16 for the
+ * packets, lossless with the bit-plane transpose (it compresses better
+ * than byte shuffle, docs/encoding.md), f = 1/8 and blocks of 32 for the
  * bounded encoding, mode 0, config id 0, epoch 0, 102.4 MHz. */
 void tl_downlink_config_default(tl_downlink_config *cfg);
 
