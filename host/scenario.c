@@ -13,6 +13,8 @@
 #include <string.h>
 
 #include "taps_design.h"
+#include "tl_downlink.h"
+#include "tl_frame.h"
 
 typedef enum {
     K_TEXT,     /* free text, char[size] */
@@ -45,6 +47,8 @@ static const char *const window_names[] = { "rectangular", "hann", "hamming", "b
 static const char *const rounding_names[] = { "truncate", "half-up", "half-even", NULL };
 static const char *const switch_state_names[] = { "antenna", "load", "noise", NULL };
 static const char *const shape_names[] = { "sky", "white", NULL };
+static const char *const encoding_names[] = { "lossless", "bounded", NULL };
+static const char *const transpose_names[] = { "byte-shuffle", "bit-planes", NULL };
 
 #define OFF(m) offsetof(tl_scenario, m)
 #define SZ(m) sizeof(((tl_scenario *)0)->m)
@@ -146,6 +150,38 @@ static const key_def keys[] = {
       "Excess noise temperature the noise source adds to the load." },
     { "fit", "foreground_order", K_U32, OFF(fit_order), 0, 1, 8, 1, NULL, 0, "",
       "Order of the log-polynomial foreground fitted under a trough." },
+    { "downlink", "encoding", K_CHOICE, OFF(dl_encoding), 0, 0, 0, 1, encoding_names, 0, "",
+      "Spectral encoding: lossless, or bounded (each value quantized to noise_fraction of its radiometer noise)." },
+    { "downlink", "noise_fraction", K_REAL, OFF(dl_fraction), 0, 0.015625, 1, 1, NULL, 0, "",
+      "Bounded encoding: step at most this fraction of sigma = P / sqrt(M); adds step^2/12 of variance." },
+    { "downlink", "step_block", K_U32, OFF(dl_block), 0, 1, 255, 1, NULL, 0, "channels",
+      "Bounded encoding: channels sharing one quantization step." },
+    { "downlink", "transpose", K_CHOICE, OFF(dl_transpose), 0, 0, 0, 1, transpose_names, 0, "",
+      "Regrouping of the zigzag words before LZ4." },
+    { "downlink", "max_packet", K_U32, OFF(dl_max_packet), 0, TL_DL_MIN_PACKET, TL_PACKET_MAX_LEN, 1, NULL, 0,
+      "octets", "Longest space packet, headers and CRC included." },
+    { "downlink", "frame_length", K_U32, OFF(dl_frame_len), 0, TL_FRAME_MIN_LEN, TL_FRAME_MAX_LEN, 1, NULL, 0,
+      "octets", "Transfer frame length without the 4-octet sync marker." },
+    { "downlink", "apid_science", K_U32, OFF(dl_apid_science), 0, 0, TL_PACKET_APID_MAX, 1, NULL, 0, "",
+      "APID of the spectra packets." },
+    { "downlink", "apid_housekeeping", K_U32, OFF(dl_apid_hk), 0, 0, TL_PACKET_APID_MAX, 1, NULL, 0, "",
+      "APID of the housekeeping packets." },
+    { "downlink", "spacecraft_id", K_U32, OFF(dl_scid), 0, 0, 1023, 1, NULL, 0, "", "Spacecraft id in the frame header." },
+    { "downlink", "virtual_channel", K_U32, OFF(dl_vcid), 0, 0, 7, 1, NULL, 0, "", "Virtual channel id of the frames." },
+    { "downlink", "mode", K_U32, OFF(dl_mode), 0, 0, 255, 1, NULL, 0, "", "Instrument mode copied into every packet." },
+    { "budget", "link_rate_kbps", K_REAL, OFF(bud_rate_bps), 0, 0.1, 1e5, 1e3, NULL, 0, "kbit/s",
+      "Relay link rate available to the instrument during a pass." },
+    { "budget", "contact_interval_h", K_REAL, OFF(bud_contact_h), 0, 0.1, 720, 1, NULL, 0, "h",
+      "Time between relay passes: the storage must hold this much data." },
+    { "budget", "pass_h", K_REAL, OFF(bud_pass_h), 0, 0.01, 24, 1, NULL, 0, "h", "Link time per pass." },
+    { "budget", "allocation_mb_per_day", K_REAL, OFF(bud_alloc_bytes_day), 0, 0.001, 1e6, 1e6, NULL, 0, "MB",
+      "Data volume allocated to the instrument per Earth day (1 MB = 10^6 octets)." },
+    { "budget", "storage_mb", K_REAL, OFF(bud_storage_bytes), 0, 0.001, 1e6, 1e6, NULL, 0, "MB",
+      "Onboard storage available to the instrument." },
+    { "budget", "night_fraction", K_REAL, OFF(bud_night_fraction), 0, 0, 1, 1, NULL, 0, "",
+      "Fraction of the lunar night spent observing." },
+    { "budget", "day_fraction", K_REAL, OFF(bud_day_fraction), 0, 0, 1, 1, NULL, 0, "",
+      "Fraction of the lunar day spent observing." },
     { "output", "folder", K_TEXT, OFF(folder), SZ(folder), 1, TL_SCENARIO_PATH_MAX - 1, 1, NULL, 0, "",
       "Folder for the outputs (created if missing; -o overrides)." },
     { "output", "csv", K_BOOL, OFF(write_csv), 0, 0, 1, 1, NULL, 0, "", "Write the spectra as CSV." },
@@ -153,8 +189,9 @@ static const key_def keys[] = {
 };
 #define NKEYS (sizeof keys / sizeof keys[0])
 
-static const char *const sections[] = { "scenario", "instrument", "integration", "sky",    "interference",
-                                        "fidelity", "switching",   "fit",         "output" };
+static const char *const sections[] = { "scenario", "instrument", "integration", "sky",      "interference",
+                                        "fidelity", "switching",   "fit",         "downlink", "budget",
+                                        "output" };
 #define NSECTIONS (sizeof sections / sizeof sections[0])
 
 /* Fields that other keys determine. */
@@ -186,6 +223,24 @@ void tl_scenario_nominal(tl_scenario *s)
     s->write_csv = 1;
     s->write_npy = 1;
     s->fit_order = 5;
+    s->dl_encoding = 0;
+    s->dl_fraction = 0.125;
+    s->dl_block = 32;
+    s->dl_transpose = 1;
+    s->dl_max_packet = TL_PACKET_MAX_LEN;
+    s->dl_frame_len = 1024;
+    s->dl_apid_science = 0x101;
+    s->dl_apid_hk = 0x102;
+    s->dl_scid = 421;
+    s->dl_vcid = 1;
+    s->dl_mode = 0;
+    s->bud_rate_bps = 64e3;
+    s->bud_contact_h = 24.0;
+    s->bud_pass_h = 1.0;
+    s->bud_alloc_bytes_day = 20e6;
+    s->bud_storage_bytes = 256e6;
+    s->bud_night_fraction = 1.0;
+    s->bud_day_fraction = 0.0;
     sync_derived(s);
 }
 
@@ -809,6 +864,9 @@ static int check_relations(const tl_scenario *s, const char *path, const int *li
             return fail_key(s, path, lines, "integration", "spectra", err, cap,
                             "must cover a whole switch cycle: at least %u spectra", cycle + s->cfg.taps);
     }
+    if (s->dl_apid_science == s->dl_apid_hk)
+        return fail_key(s, path, lines, "downlink", "apid_housekeeping", err, cap,
+                        "must differ from apid_science = %u", s->dl_apid_science);
     return check_sky_relations(s, path, lines, err, cap);
 }
 

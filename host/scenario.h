@@ -3,7 +3,7 @@
  *
  * A scenario file is INI (parsed with Debian's inih), one section per
  * concern: [scenario], [instrument], [integration], [sky], [interference],
- * [fidelity], [output]. Every key is optional (the built-in default fills
+ * [fidelity], [switching], [fit], [downlink], [budget], [output]. Every key is optional (the built-in default fills
  * it in), every given key is checked for type and range, and unknown
  * sections or keys, repeated keys, indented continuation lines, lines
  * longer than 199 characters, text after a section header, "key: value",
@@ -47,6 +47,21 @@ typedef struct tl_scenario {
     char folder[TL_SCENARIO_PATH_MAX]; /* output folder */
     unsigned write_csv, write_npy;
     uint32_t fit_order;       /* log-polynomial order of the foreground under a trough */
+    /* [downlink]: packets and frames (firmware/tl_downlink.h, tl_frame.h) */
+    unsigned dl_encoding;     /* 0 lossless, 1 noise-bounded */
+    double dl_fraction;       /* noise fraction f of the bounded encoding */
+    uint32_t dl_block;        /* channels per step of the bounded encoding */
+    unsigned dl_transpose;    /* 0 byte shuffle, 1 bit planes */
+    uint32_t dl_max_packet;   /* octets */
+    uint32_t dl_frame_len;    /* octets, ASM excluded */
+    uint32_t dl_apid_science, dl_apid_hk, dl_scid, dl_vcid, dl_mode;
+    /* [budget]: the link and storage the downlink must fit */
+    double bud_rate_bps;      /* relay link rate while in contact */
+    double bud_contact_h;     /* hours between relay contacts (storage must last) */
+    double bud_pass_h;        /* contact time per pass */
+    double bud_alloc_bytes_day; /* data volume allocated to the instrument per Earth day */
+    double bud_storage_bytes; /* onboard storage for the instrument */
+    double bud_night_fraction, bud_day_fraction; /* observing time per lunar night / day */
 } tl_scenario;
 
 /* The built-in default (docs/scenario-default.ini): the dark-ages band of

@@ -266,6 +266,24 @@ static void modified(tl_scenario *s)
     snprintf(s->folder, sizeof s->folder, "/tmp/tidelock out.d");
     s->write_csv = 0;
     s->write_npy = 0;
+    s->dl_encoding = 1;
+    s->dl_fraction = 0.0625;
+    s->dl_block = 16;
+    s->dl_transpose = 0;
+    s->dl_max_packet = 2048;
+    s->dl_frame_len = 256;
+    s->dl_apid_science = 17;
+    s->dl_apid_hk = 18;
+    s->dl_scid = 1023;
+    s->dl_vcid = 7;
+    s->dl_mode = 3;
+    s->bud_rate_bps = 8e3;
+    s->bud_contact_h = 12.5;
+    s->bud_pass_h = 0.5;
+    s->bud_alloc_bytes_day = 5e6;
+    s->bud_storage_bytes = 64e6;
+    s->bud_night_fraction = 0.75;
+    s->bud_day_fraction = 0.25;
     /* fields that follow their keys, as tl_scenario_load sets them */
     s->cfg.integration = s->spectra;
     s->sky.adc_bits = s->cfg.adc_bits;
@@ -282,8 +300,8 @@ static void test_round_trip_every_key(void **state)
     assert_int_equal(tl_scenario_check(&mod, NULL, err, sizeof err), 0);
     char *text = written(&mod);
     char *deftext = written(&def);
-    /* every one of the 33 key lines differs from the default file */
-    assert_int_equal(differing_lines(text, deftext), 33);
+    /* every one of the 51 key lines differs from the default file */
+    assert_int_equal(differing_lines(text, deftext), 51);
     expect_loads(text, &back);
     assert_scenario_equal(&back, &mod, "round trip");
     free(text);
@@ -571,7 +589,7 @@ typedef struct case_ {
     const char *suffix; /* expected message after the path; NULL: loads */
 } case_;
 
-#define SECTIONS "(sections: scenario, instrument, integration, sky, interference, fidelity, switching, fit, output)"
+#define SECTIONS "(sections: scenario, instrument, integration, sky, interference, fidelity, switching, fit, downlink, budget, output)"
 #define INSTRUMENT_KEYS                                                                                               \
     "(keys of [instrument]: sample_rate_mhz, adc_bits, adc_full_scale_v, dc_offset_lsb, inputs, channels, taps, window, "            \
     "fft_scaling, rounding, detection_shift)"
@@ -623,6 +641,10 @@ static const case_ cases[] = {
       "stage plus the split)" },
     { "relation: lowpass below highpass", "[sky]\nhighpass_mhz = 5\nlowpass_mhz = 4\n",
       ":3: [sky] lowpass_mhz = '4': must be above highpass_mhz = 5 MHz" },
+    { "relation: one APID for both", "[downlink]\napid_housekeeping = 257\n",
+      ":2: [downlink] apid_housekeeping = '257': must differ from apid_science = 257" },
+    { "range: packet below the downlink minimum", "[downlink]\nmax_packet = 511\n",
+      ":2: [downlink] max_packet = '511': must be an integer from 512 to 4095 octets" },
     { "relation: extrapolate_to below spectra", "[fidelity]\nextrapolate_to = 4095\n",
       ":2: [fidelity] extrapolate_to = '4095': must be 0 or at least [integration] spectra = 4096" },
     { "relation: band_low not below band_high", "[fidelity]\nband_low_mhz = 40\n",
@@ -999,7 +1021,7 @@ static void test_strict_syntax(void **state)
     /* a section name of any length is checked */
     expect_error("[qqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqq]\n",
                  ":1: [qqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqq]: unknown section "
-                 "(sections: scenario, instrument, integration, sky, interference, fidelity, switching, fit, output)");
+                 "(sections: scenario, instrument, integration, sky, interference, fidelity, switching, fit, downlink, budget, output)");
 }
 
 /* Numbers are written so that they read back exactly. */
