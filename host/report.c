@@ -92,6 +92,21 @@ void tl_report_print(FILE *out, const tl_scenario *s, const tl_run_result *r)
                         cr->fit[i].chi2 / cr->fit[i].dof);
         }
     }
+    if (r->dl.done) {
+        const tl_dl_result *d = &r->dl;
+        const uint64_t pk = d->octets_science + d->octets_hk;
+        fprintf(out, "downlink (%s%s, packets <= %u octets, frames of %u + 4 octets, config id 0x%08X):\n",
+                s->dl_encoding ? "noise-bounded" : "lossless", s->dl_transpose ? ", bit planes" : ", byte shuffle",
+                s->dl_max_packet, s->dl_frame_len, d->config_id);
+        fprintf(out, "  %u science packets (%llu octets) + %u housekeeping (%llu octets) = %llu octets; sums "
+                     "uncompressed %llu octets, compression x%.2f\n",
+                d->packets_science, (unsigned long long)d->octets_science, d->packets_hk,
+                (unsigned long long)d->octets_hk, (unsigned long long)pk, (unsigned long long)d->octets_raw,
+                d->octets_science ? (double)d->octets_raw / (double)d->octets_science : 0.0);
+        fprintf(out, "  %u transfer frames, %llu octets on the link (%.1f%% frame overhead and fill)\n", d->frames,
+                (unsigned long long)d->octets_frames,
+                pk ? 100.0 * ((double)d->octets_frames - (double)pk) / (double)d->octets_frames : 0.0);
+    }
     char why[4096];
     const int fails = tl_fidelity_verdict(f, why, sizeof why);
     if (fails == 0)
@@ -193,6 +208,24 @@ int tl_report_write_json(const char *path, const tl_scenario *s, const tl_run_re
         }
         json_object_set_new(cal, "inputs", ins);
         json_object_set_new(root, "calibration", cal);
+    }
+    if (r->dl.done) {
+        const tl_dl_result *d = &r->dl;
+        json_t *dl = json_object();
+        json_object_set_new(dl, "encoding", json_string(s->dl_encoding ? "bounded" : "lossless"));
+        json_object_set_new(dl, "config_id", json_integer((json_int_t)d->config_id));
+        json_object_set_new(dl, "packets_science", json_integer((json_int_t)d->packets_science));
+        json_object_set_new(dl, "packets_housekeeping", json_integer((json_int_t)d->packets_hk));
+        json_object_set_new(dl, "octets_science", json_integer((json_int_t)d->octets_science));
+        json_object_set_new(dl, "octets_housekeeping", json_integer((json_int_t)d->octets_hk));
+        json_object_set_new(dl, "octets_uncompressed", json_integer((json_int_t)d->octets_raw));
+        json_object_set_new(dl, "compression",
+                            json_real(d->octets_science ? (double)d->octets_raw / (double)d->octets_science : 0.0));
+        json_object_set_new(dl, "frames", json_integer((json_int_t)d->frames));
+        json_object_set_new(dl, "octets_frames", json_integer((json_int_t)d->octets_frames));
+        json_object_set_new(dl, "packet_file", json_string("packets.bin"));
+        json_object_set_new(dl, "frame_file", json_string("frames.bin"));
+        json_object_set_new(root, "downlink", dl);
     }
     char why[4096];
     const int fails = tl_fidelity_verdict(f, why, sizeof why);

@@ -122,6 +122,11 @@ tl_status tl_run_with_source(const tl_scenario *s, tl_fid_source source, void (*
     tl_status st = tl_fidelity_run(&su, &r->fid);
     if (st == TL_OK && s->cfg.switch_steps > 0u && tl_run_calibrate(s, &r->fid.product, &r->cal) != 0)
         st = TL_E_SWITCH; /* a state never integrated: the sequence cannot calibrate */
+    if (st == TL_OK) {
+        char why[512];
+        if (tl_downlink_out_make(s, &r->fid.product, &r->dl, NULL, NULL, NULL, NULL, why, sizeof why) != 0)
+            st = TL_E_ENCODING;
+    }
     free(img);
     clock_gettime(CLOCK_MONOTONIC, &t1);
     r->seconds = (double)(t1.tv_sec - t0.tv_sec) + 1e-9 * (double)(t1.tv_nsec - t0.tv_nsec);

@@ -9,6 +9,7 @@
 #include "scenario.h"
 
 #include "calibrate.h"
+#include "downlink_out.h"
 
 /* With a switch sequence: the calibrated antenna temperature of each input
  * against the model's, over the science band (channels [band_lo, band_hi)). */
@@ -29,6 +30,7 @@ typedef struct tl_run_result {
     uint64_t generator_clips[2];  /* samples the sky generator clipped, per input */
     double seconds;               /* wall time of the run */
     tl_cal_report cal;
+    tl_dl_result dl;              /* the product's packets and frames (downlink_out.h) */
 } tl_run_result;
 
 /* Calibrate a switched product against the scenario's model (tl_run_scenario

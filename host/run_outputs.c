@@ -108,9 +108,10 @@ int tl_run_outputs_write(const char *dir, const tl_scenario *s, const tl_run_res
     if (tl_spectra_write(dir, &r->fid.product, s->sky.sample_rate_hz, (int)s->write_csv, (int)s->write_npy, err,
                          cap) != 0)
         return -1;
-    if (r->cal.done)
-        return tl_run_outputs_calibrated(dir, s, &r->fid.product, &r->cal, err, cap);
-    return 0;
+    if (r->cal.done && tl_run_outputs_calibrated(dir, s, &r->fid.product, &r->cal, err, cap) != 0)
+        return -1;
+    tl_dl_result dl;
+    return tl_downlink_out_write(dir, s, &r->fid.product, &dl, err, cap);
 }
 
 int tl_run_outputs_calibrated(const char *dir, const tl_scenario *s, const tl_product *p, const tl_cal_report *c,
@@ -131,6 +132,7 @@ int tl_run_outputs_calibrated(const char *dir, const tl_scenario *s, const tl_pr
 void tl_run_outputs_say(FILE *out, const char *dir, const tl_scenario *s)
 {
     const int cal = s->cfg.switch_steps > 0u && (s->write_csv || s->write_npy);
-    fprintf(out, "wrote %s/: summary.json, scenario.ini%s%s%s\n", dir, s->write_csv ? ", spectra as CSV" : "",
-            s->write_npy ? ", spectra as .npy" : "", cal ? ", calibrated spectra (calibrated.*)" : "");
+    fprintf(out, "wrote %s/: summary.json, scenario.ini%s%s%s, downlink (packets.bin, frames.bin)\n", dir,
+            s->write_csv ? ", spectra as CSV" : "", s->write_npy ? ", spectra as .npy" : "",
+            cal ? ", calibrated spectra (calibrated.*)" : "");
 }

@@ -5,6 +5,7 @@
  *   DIR/scenario.ini   the scenario as resolved
  *   DIR/auto<i>.csv, cross.csv, *.npy   the integrated spectra (spectra_out.h),
  *                      as the scenario's [output] csv and npy keys ask
+ *   DIR/packets.bin, frames.bin   the downlink of the product (downlink_out.h)
  *   DIR/calibrated.csv, calibrated.npy   with a switch sequence: per channel
  *                      the model's antenna temperature and each input's
  *                      calibrated temperature and its noise, K

@@ -278,6 +278,8 @@ static void test_run_writes_outputs(void **state)
     assert_int_equal(run(args, out, sizeof out), 0);
     assert_string_equal(out, ""); /* -q: nothing on stdout or stderr */
     snprintf(path, sizeof path, "%s/summary.json", dir);
+    char path_summary[512];
+    snprintf(path_summary, sizeof path_summary, "%s", path);
     json_error_t jerr;
     json_t *root = json_load_file(path, 0, &jerr);
     if (root == NULL)
@@ -323,9 +325,28 @@ static void test_run_writes_outputs(void **state)
     fclose(cf);
     assert_int_equal(rows, 4096);
     TL_ASSERT_NEAR(chi2 / 2000.0, chi2_summary, 1e-6);
+    /* the downlink files have the sizes the summary states: frames of
+     * 1024 + 4 octets (CCSDS 131.0-B sync marker + CCSDS 132.0-B frame) */
+    root = json_load_file(path_summary, 0, &jerr);
+    assert_non_null(root);
+    const json_t *dl = json_object_get(root, "downlink");
+    const json_int_t pk = json_integer_value(json_object_get(dl, "octets_science")) +
+                          json_integer_value(json_object_get(dl, "octets_housekeeping"));
+    const json_int_t fr = json_integer_value(json_object_get(dl, "octets_frames"));
+    assert_int_equal(json_integer_value(json_object_get(dl, "frames")) * 1028, fr);
+    struct stat sb;
+    snprintf(path, sizeof path, "%s/packets.bin", dir);
+    assert_int_equal(stat(path, &sb), 0);
+    assert_int_equal(sb.st_size, pk);
+    snprintf(path, sizeof path, "%s/frames.bin", dir);
+    assert_int_equal(stat(path, &sb), 0);
+    assert_int_equal(sb.st_size, fr);
+    printf("    downlink: %lld packet octets in %lld frame octets\n", (long long)pk, (long long)fr);
+    json_decref(root);
     const char *expected[] = { "summary.json",  "scenario.ini", "auto0.csv",         "auto1.csv",
                                "cross.csv",     "auto0.npy",    "auto1.npy",         "cross.npy",
-                               "flags.npy",     "frequency_mhz.npy", "calibrated.csv", "calibrated.npy" };
+                               "flags.npy",     "frequency_mhz.npy", "calibrated.csv", "calibrated.npy",
+                               "packets.bin",   "frames.bin" };
     const size_t nexp = sizeof expected / sizeof expected[0];
     DIR *d = opendir(dir);
     struct dirent *e;
