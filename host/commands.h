@@ -24,4 +24,7 @@ int tl_cmd_simulate(int argc, char **argv);
 /* tidelock replay NAME.sigmf-meta [SCENARIO.ini] [-o DIR] [--block-kib N] [-q] */
 int tl_cmd_replay(int argc, char **argv);
 
+/* tidelock budget [SCENARIO.ini] [-o DIR] [-q] */
+int tl_cmd_budget(int argc, char **argv);
+
 #endif

@@ -80,6 +80,65 @@ void tl_run_progress_bar(void *ctx, uint32_t done, uint32_t total)
     fflush(stderr);
 }
 
+/* The firmware's built-in table when the scenario asks for it (*img NULL),
+ * else one designed from the scenario as a CRC-checked image (malloc'd). */
+static int scenario_taps_image(const tl_scenario *s, uint8_t **img, size_t *img_len)
+{
+    *img = NULL;
+    *img_len = 0;
+    if (s->cfg.points == tl_taps_default_points && s->cfg.taps == tl_taps_default_taps &&
+        s->window == tl_taps_default_window)
+        return 0;
+    tl_taps *t = malloc(sizeof *t);
+    *img = malloc(TL_TAPS_IMAGE_BYTES(s->cfg.taps, s->cfg.points));
+    if (t == NULL || *img == NULL || tl_taps_design(s->window, s->cfg.taps, s->cfg.points, t, NULL) != 0 ||
+        tl_taps_write_image(t, *img, TL_TAPS_IMAGE_BYTES(s->cfg.taps, s->cfg.points), img_len) != TL_OK) {
+        free(t);
+        free(*img);
+        *img = NULL;
+        return -1;
+    }
+    free(t);
+    return 0;
+}
+
+tl_status tl_run_firmware(const tl_scenario *s, tl_product *p)
+{
+    uint8_t *img = NULL;
+    size_t img_len = 0;
+    if (scenario_taps_image(s, &img, &img_len) != 0)
+        return TL_E_TABLE_FORMAT;
+    tl_sky_params sp = s->sky;
+    sp.rms_fs *= pow(10.0, s->drive_db / 20.0);
+    sp.adc_bits = s->cfg.adc_bits;
+    sp.inputs = s->cfg.inputs;
+    tl_sky *sky = tl_sky_open(&sp);
+    tl_chain *c = malloc(sizeof *c);
+    const uint32_t N = s->cfg.points;
+    int16_t *a = malloc(sizeof *a * N), *b = malloc(sizeof *b * N);
+    tl_status st = TL_E_NULL;
+    if (sky != NULL && c != NULL && a != NULL && b != NULL) {
+        tl_config cfg = s->cfg;
+        cfg.integration = s->spectra;
+        st = tl_chain_init(c, &cfg, img, img_len);
+        while (st == TL_OK && !tl_chain_ready(c)) {
+            if (s->cfg.switch_steps > 0u)
+                tl_sky_set_state(sky, tl_chain_state(c));
+            tl_sky_fill(sky, a, b, N);
+            size_t used = 0;
+            st = tl_chain_push(c, a, b, N, &used);
+        }
+        if (st == TL_OK)
+            st = tl_chain_take(c, p);
+    }
+    tl_sky_close(sky);
+    free(c);
+    free(a);
+    free(b);
+    free(img);
+    return st;
+}
+
 tl_status tl_run_with_source(const tl_scenario *s, tl_fid_source source, void (*set_state)(void *, uint32_t),
                              void *source_state, tl_run_result *r, void (*progress)(void *, uint32_t, uint32_t),
                              void *progress_ctx)
@@ -87,22 +146,10 @@ tl_status tl_run_with_source(const tl_scenario *s, tl_fid_source source, void (*
     memset(r, 0, sizeof *r);
     struct timespec t0, t1;
     clock_gettime(CLOCK_MONOTONIC, &t0);
-    /* the firmware's built-in table when the scenario asks for it, else
-     * one designed from the scenario, passed as a CRC-checked image */
     uint8_t *img = NULL;
     size_t img_len = 0;
-    if (s->cfg.points != tl_taps_default_points || s->cfg.taps != tl_taps_default_taps ||
-        s->window != tl_taps_default_window) {
-        tl_taps *t = malloc(sizeof *t);
-        img = malloc(TL_TAPS_IMAGE_BYTES(s->cfg.taps, s->cfg.points));
-        if (t == NULL || img == NULL || tl_taps_design(s->window, s->cfg.taps, s->cfg.points, t, NULL) != 0 ||
-            tl_taps_write_image(t, img, TL_TAPS_IMAGE_BYTES(s->cfg.taps, s->cfg.points), &img_len) != TL_OK) {
-            free(t);
-            free(img);
-            return r->fid.status = TL_E_TABLE_FORMAT;
-        }
-        free(t);
-    }
+    if (scenario_taps_image(s, &img, &img_len) != 0)
+        return r->fid.status = TL_E_TABLE_FORMAT;
     tl_fid_setup su;
     memset(&su, 0, sizeof su);
     su.taps_image = img;

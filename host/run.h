@@ -49,6 +49,12 @@ tl_status tl_run_with_source(const tl_scenario *s, tl_fid_source source, void (*
  * non-zero int (the caller decides: a terminal, not quiet). */
 void tl_run_progress_bar(void *ctx, uint32_t done, uint32_t total);
 
+/* The firmware chain alone on s's sky (no references, no fidelity): one
+ * integration of s->spectra spectra into *p, switching as s says. For the
+ * budgets, which need the product and not the comparison. Returns TL_OK or
+ * the first error. */
+tl_status tl_run_firmware(const tl_scenario *s, tl_product *p);
+
 /* Run s at its drive level. progress (may be NULL) is called after each
  * block with (ctx, done, total). Returns TL_OK or the first error. */
 tl_status tl_run_scenario(const tl_scenario *s, tl_run_result *r, void (*progress)(void *, uint32_t, uint32_t),

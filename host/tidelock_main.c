@@ -36,6 +36,7 @@ static const char *const main_help =
     "  scenario  print the default scenario file, or check one\n"
     "  simulate  write a scenario's ADC voltages as a SigMF recording (ri16_le)\n"
     "  replay    run a SigMF recording through the chain and the reference, as run does\n"
+    "  budget    the downlink budget: volumes, link time, storage and their margins\n"
     "  tables    write a filterbank coefficient table image, or the committed table sources\n"
     "  help      help on a command (tidelock help run)\n"
     "\n"
@@ -294,6 +295,8 @@ int main(int argc, char **argv)
         const char *topic = argc > 2 ? argv[2] : "";
         if (strcmp(topic, "simulate") == 0 || strcmp(topic, "replay") == 0)
             return (topic[0] == 's' ? tl_cmd_simulate : tl_cmd_replay)(2, (char *[]){ argv[2], "--help", NULL });
+        if (strcmp(topic, "budget") == 0)
+            return tl_cmd_budget(2, (char *[]){ argv[2], "--help", NULL });
         fputs(strcmp(topic, "run") == 0        ? run_help
               : strcmp(topic, "scenario") == 0 ? scenario_help
               : strcmp(topic, "tables") == 0   ? tables_help
@@ -309,10 +312,12 @@ int main(int argc, char **argv)
         return tl_cmd_simulate(argc - 1, argv + 1);
     if (strcmp(cmd, "replay") == 0)
         return tl_cmd_replay(argc - 1, argv + 1);
+    if (strcmp(cmd, "budget") == 0)
+        return tl_cmd_budget(argc - 1, argv + 1);
     if (strcmp(cmd, "tables") == 0)
         return cmd_tables(argc - 1, argv + 1);
     fprintf(stderr,
-            "tidelock: unknown command '%s' (commands: run, scenario, simulate, replay, tables, help; "
+            "tidelock: unknown command '%s' (commands: run, scenario, simulate, replay, budget, tables, help; "
             "see tidelock --help)\n",
             cmd);
     return EXIT_USAGE;
