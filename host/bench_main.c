@@ -7,6 +7,10 @@
  *               integration) in Msamples/s per input on one core, beside
  *               the FFTW double reference chain run on the same samples
  *               in the same run, and their ratio, for several channel counts
+ *   encoder     the downlink's lossless encoding (delta, zigzag, bit planes,
+ *               our LZ4) in MB/s of 64-bit sums, its LZ4 stage against
+ *               liblz4's LZ4_compress_default on the same transposed bytes
+ *               (speed and size), and the ground's payload decoder
  *   replay      a recording of about --replay-gib GiB (default 2) simulated
  *               to a temporary folder and replayed through `tidelock
  *               replay`: wall time, Msamples/s, peak resident memory (the
@@ -31,8 +35,12 @@
 #include <unistd.h>
 
 #include <jansson.h>
+#include <lz4.h>
 
 #include "reference.h"
+#include "run.h"
+#include "spectral_decode.h"
+#include "tl_encode.h"
 #include "scenario.h"
 #include "sky_noise.h"
 #include "taps_design.h"
@@ -173,6 +181,68 @@ static void bench_chain(json_t *arr, uint32_t channels)
     free(t);
 }
 
+/* ---- the downlink encoder against liblz4 ------------------------------------- */
+
+static void bench_encoder(json_t *root)
+{
+    tl_scenario s;
+    tl_scenario_default(&s);
+    s.spectra = 1024;
+    s.cfg.integration = 1024;
+    s.blocks = 16;
+    tl_product *p = xmalloc(sizeof *p);
+    if (tl_run_firmware(&s, p) != TL_OK) {
+        fprintf(stderr, "tl-bench: the default scenario does not run\n");
+        exit(1);
+    }
+    tl_encode *e = xmalloc(sizeof *e);
+    const uint32_t n = TL_ENCODE_MAX_CHANNELS, chunks = p->channels / n;
+    uint8_t *dst = xmalloc(TL_ENCODE_LOSSLESS_BOUND(TL_ENCODE_MAX_CHANNELS));
+    char *ref = xmalloc((size_t)LZ4_compressBound((int)(8u * n)));
+    static uint64_t back[TL_ENCODE_MAX_CHANNELS];
+    size_t ours = 0, theirs = 0, raw = 0, w = 0;
+    double t_ours = 0.0, t_ref = 0.0, t_dec = 0.0;
+    const int reps = 200;
+    for (uint32_t c = 0; c < chunks; c++) {
+        const uint64_t *v = p->auto_power[0] + (size_t)c * n;
+        double t0 = now_s();
+        for (int r = 0; r < reps; r++)
+            tl_encode_lossless_u64(e, v, n, TL_ENCODE_BIT_PLANES, dst, TL_ENCODE_LOSSLESS_BOUND(n), &w);
+        t_ours += now_s() - t0;
+        ours += w;
+        raw += 8u * n;
+        /* e->shuffled now holds the transposed words our LZ4 compressed */
+        int got = 0;
+        t0 = now_s();
+        for (int r = 0; r < reps; r++)
+            got = LZ4_compress_default((const char *)e->shuffled, ref, (int)(8u * n), LZ4_compressBound((int)(8u * n)));
+        t_ref += now_s() - t0;
+        theirs += (size_t)got + TL_ENCODE_HEADER_BYTES;
+        t0 = now_s();
+        for (int r = 0; r < reps; r++)
+            tl_spectral_decode_u64(dst, w, back, NULL, n, NULL);
+        t_dec += now_s() - t0;
+    }
+    const double mb = (double)raw * reps / 1e6;
+    printf("encoder     lossless, bit planes, %u x %u channels of auto0: %.1f MB/s of sums, x%.3f; "
+           "liblz4 LZ4_compress_default on the same transposed bytes: %.1f MB/s (LZ4 stage only), x%.3f "
+           "(ours/liblz4 size %.4f); ground decoder %.1f MB/s\n",
+           chunks, n, mb / t_ours, (double)raw / ours, mb / t_ref, (double)raw / theirs,
+           (double)ours / (double)theirs, mb / t_dec);
+    json_t *o = json_object();
+    json_object_set_new(o, "encode_mb_per_s", json_real(mb / t_ours));
+    json_object_set_new(o, "ratio", json_real((double)raw / ours));
+    json_object_set_new(o, "liblz4_mb_per_s", json_real(mb / t_ref));
+    json_object_set_new(o, "liblz4_ratio", json_real((double)raw / theirs));
+    json_object_set_new(o, "size_ours_over_liblz4", json_real((double)ours / (double)theirs));
+    json_object_set_new(o, "decode_mb_per_s", json_real(mb / t_dec));
+    json_object_set_new(root, "encoder", o);
+    free(ref);
+    free(dst);
+    free(e);
+    free(p);
+}
+
 /* ---- a large replay through the CLI ------------------------------------------ */
 
 /* Run argv with stdout/stderr to `log`; wall time and the child's peak RSS. */
@@ -291,6 +361,7 @@ int main(int argc, char **argv)
     for (size_t i = 0; i < sizeof ch / sizeof ch[0]; i++)
         bench_chain(arr, ch[i]);
     json_object_set_new(root, "chain", arr);
+    bench_encoder(root);
     int rc = 0;
     if (gib > 0.0 && bench_replay(root, tool, tmp, gib) != 0)
         rc = 1;
