@@ -275,7 +275,7 @@ int tl_cmd_replay(int argc, char **argv)
         if (rounded != 0 || clipped != 0)
             printf("replay: note: %llu samples rounded to the %u-bit ADC's codes, %llu clipped at its range\n",
                    (unsigned long long)rounded, s.cfg.adc_bits, (unsigned long long)clipped);
-        tl_report_print(stdout, &s, r);
+        tl_report_print(stdout, "replay", &s, r);
     }
     if (tl_run_outputs_folder(dir, err, sizeof err) != 0 || tl_run_outputs_write(dir, &s, r, err, sizeof err) != 0)
         goto fail;

@@ -19,12 +19,12 @@ static double hours_of(const tl_scenario *s, double spectra)
     return spectra * s->cfg.points / s->sky.sample_rate_hz / 3600.0;
 }
 
-void tl_report_print(FILE *out, const tl_scenario *s, const tl_run_result *r)
+void tl_report_print(FILE *out, const char *command, const tl_scenario *s, const tl_run_result *r)
 {
     const tl_fid_result *f = &r->fid;
     const tl_config *c = &s->cfg;
     const double df = tl_scenario_channel_hz(s);
-    fprintf(out, "tidelock run: scenario %s\n  %s\n", s->name, s->description);
+    fprintf(out, "tidelock %s: scenario %s\n  %s\n", command, s->name, s->description);
     fprintf(out, "configuration: %u points (%u channels of %.3f kHz), %u taps %s, %u input%s, %u-bit ADC,\n"
                  "  FFT scaling mask 0x%04x, rounding %s, detection shift %u (flight %u for %u spectra), arithmetic spec v%u\n",
             c->points, c->points / 2u, df / 1e3, c->taps, tl_window_name(s->window), c->inputs, c->inputs > 1 ? "s" : "",

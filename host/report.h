@@ -9,7 +9,9 @@
 #include "run.h"
 #include "scenario.h"
 
-void tl_report_print(FILE *out, const tl_scenario *s, const tl_run_result *r);
+/* The report of a run or a replay on out; its first line names `command`
+ * ("run" or "replay") and the scenario. */
+void tl_report_print(FILE *out, const char *command, const tl_scenario *s, const tl_run_result *r);
 
 /* Write the JSON summary to path atomically (temporary file, then rename).
  * Returns 0, or -1 with a one-line message in err (cap bytes). */

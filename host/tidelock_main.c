@@ -146,7 +146,7 @@ static int cmd_run(int argc, char **argv)
         return EXIT_FAIL;
     }
     if (!quiet)
-        tl_report_print(stdout, &s, r);
+        tl_report_print(stdout, "run", &s, r);
     if (tl_run_outputs_write(dir, &s, r, err, sizeof err) != 0) {
         fprintf(stderr, "tidelock run: %s\n", err);
         free(r);
