@@ -18,6 +18,7 @@ void tl_config_default(tl_config *cfg)
         cfg->switch_dwell[i] = 0;
     }
     cfg->switch_discard = 0;
+    cfg->sk_spectra = 0;
 }
 
 uint32_t tl_config_det_shift(const tl_config *cfg)
@@ -46,6 +47,10 @@ static tl_status check_config(const tl_config *cfg)
         return TL_E_ROUNDING;
     if (cfg->det_shift != TL_DET_SHIFT_AUTO && cfg->det_shift > TL_MAX_DET_SHIFT)
         return TL_E_DET_SHIFT;
+    if (cfg->sk_spectra != 0u &&
+        (cfg->sk_spectra < TL_SK_MIN_SPECTRA || cfg->sk_spectra > TL_SK_MAX_SPECTRA ||
+         cfg->sk_spectra > cfg->integration))
+        return TL_E_SK;
     return TL_OK;
 }
 
@@ -58,6 +63,9 @@ static void start_integration(tl_chain *c)
     memset(&c->stats, 0, sizeof c->stats);
     c->first_frame = 0;
     c->ready = 0;
+    tl_sk_reset(&c->sk);
+    c->sk_ready = 0;
+    c->sk_blocks = 0;
 }
 
 /* Start pipeline and integration with the table now in c->taps. */
@@ -86,6 +94,9 @@ tl_status tl_chain_init(tl_chain *c, const tl_config *cfg, const uint8_t *taps_i
     if (st != TL_OK)
         return st;
     st = tl_switch_init(&c->sw, cfg->switch_steps, cfg->switch_state, cfg->switch_dwell, cfg->switch_discard);
+    if (st != TL_OK)
+        return st;
+    st = tl_sk_init(&c->sk, cfg->sk_spectra, cfg->points / 2u, cfg->inputs);
     if (st != TL_OK)
         return st;
     st = (taps_image == NULL) ? tl_taps_default(&c->taps) : tl_taps_load_image(&c->taps, taps_image, image_len);
@@ -194,10 +205,17 @@ static void process_frame(tl_chain *c)
     c->spectra++;
     if (keep) {
         tl_integrator *it = &c->integ[state];
+        const int sk = state == TL_STATE_ANTENNA && c->sk.m != 0u;
+        if (sk && c->sk.count == 0u)
+            c->sk_first_frame = c->frames - 1u;
         for (uint32_t i = 0; i < c->cfg.inputs; i++) {
             tl_detect_power(c->X[i], channels, shift, mode, c->power);
             tl_integrate_power(it, i, c->power);
+            if (sk)
+                tl_sk_add(&c->sk, i, c->power);
         }
+        if (sk && tl_sk_spectrum_done(&c->sk))
+            c->sk_ready = 1u;
         if (c->cfg.inputs == 2u) {
             tl_detect_cross(c->X[0], c->X[1], channels, shift, mode, c->cross_re, c->cross_im);
             tl_integrate_cross(it, c->cross_re, c->cross_im);
@@ -219,11 +237,11 @@ tl_status tl_chain_push(tl_chain *c, const int16_t *in0, const int16_t *in1, siz
         return TL_E_NOT_INIT;
     if (count > 0u && (in0 == NULL || (c->cfg.inputs == 2u && in1 == NULL)))
         return TL_E_NULL;
-    if (c->ready)
+    if (c->ready || c->sk_ready)
         return TL_E_BUSY;
     const uint32_t N = c->cfg.points;
     size_t done = 0;
-    while (done < count && !c->ready) {
+    while (done < count && !c->ready && !c->sk_ready) {
         const size_t room = N - c->fill;
         const uint32_t n = (uint32_t)((count - done < room) ? (count - done) : room);
         copy_in(c, 0u, in0 + done, n);
@@ -248,6 +266,8 @@ tl_status tl_chain_take(tl_chain *c, tl_product *out)
         return TL_E_NOT_INIT;
     if (!c->ready)
         return TL_E_EMPTY;
+    if (c->sk_ready)
+        return TL_E_BUSY;
     const uint32_t channels = c->cfg.points / 2u;
     const tl_integrator *ant = &c->integ[TL_STATE_ANTENNA];
     const int two = c->cfg.inputs == 2u;
@@ -256,6 +276,8 @@ tl_status tl_chain_take(tl_chain *c, tl_product *out)
     out->spectra = c->spectra;
     out->antenna_spectra = ant->spectra;
     out->discarded = c->discarded;
+    out->sk_blocks = c->sk_blocks;
+    out->sk_dropped = c->sk.count;
     out->switch_steps = c->cfg.switch_steps;
     out->first_frame = c->first_frame;
     out->points = c->cfg.points;
@@ -299,5 +321,35 @@ tl_status tl_chain_take(tl_chain *c, tl_product *out)
     }
     c->index++;
     start_integration(c);
+    return TL_OK;
+}
+
+int tl_chain_sk_ready(const tl_chain *c)
+{
+    return c != NULL && c->initialised == TL_CHAIN_MAGIC && c->sk_ready != 0u;
+}
+
+tl_status tl_chain_take_sk(tl_chain *c, tl_sk_block *out)
+{
+    if (c == NULL || out == NULL)
+        return TL_E_NULL;
+    if (c->initialised != TL_CHAIN_MAGIC)
+        return TL_E_NOT_INIT;
+    if (!c->sk_ready)
+        return TL_E_EMPTY;
+    out->index = c->index;
+    out->block = c->sk_blocks;
+    out->spectra = c->sk.m;
+    out->inputs = c->cfg.inputs;
+    out->channels = c->cfg.points / 2u;
+    out->det_shift = c->cfg.det_shift;
+    out->sat = c->sk.sat;
+    out->first_frame = c->sk_first_frame;
+    memcpy(out->s1, c->sk.s1, sizeof out->s1);
+    memcpy(out->s2_hi, c->sk.s2_hi, sizeof out->s2_hi);
+    memcpy(out->s2_lo, c->sk.s2_lo, sizeof out->s2_lo);
+    tl_sk_reset(&c->sk);
+    c->sk_blocks++;
+    c->sk_ready = 0u;
     return TL_OK;
 }

@@ -11,13 +11,15 @@
  *     while (samples left) {
  *         st = tl_chain_push(&chain, in0, in1, n, &used);
  *         in0 += used; in1 += used; n -= used;
+ *         if (tl_chain_sk_ready(&chain)) tl_chain_take_sk(&chain, &block);
  *         if (tl_chain_ready(&chain)) tl_chain_take(&chain, &product);
  *     }
  *
  * Push takes any number of samples; a stream cut into any pieces gives the
  * same products byte for byte. Push stops right after the spectrum that
- * completes an integration; until that product is taken, push consumes
- * nothing and returns TL_E_BUSY. No hidden globals: all state is in the
+ * completes an integration or a spectral kurtosis block; until that
+ * product (or block) is taken, push consumes nothing and returns
+ * TL_E_BUSY. When both finish on the same spectrum, take the block first. No hidden globals: all state is in the
  * context; nothing is allocated.
  */
 #ifndef TL_CHAIN_H
@@ -32,6 +34,7 @@
 #include "tl_limits.h"
 #include "tl_pfb.h"
 #include "tl_status.h"
+#include "tl_sk.h"
 #include "tl_switch.h"
 #include "tl_taps.h"
 
@@ -51,6 +54,8 @@ typedef struct tl_config {
     uint8_t switch_state[TL_MAX_SWITCH_STEPS];  /* TL_STATE_* per step */
     uint32_t switch_dwell[TL_MAX_SWITCH_STEPS]; /* frames (spectra) per step */
     uint32_t switch_discard;  /* spectra not integrated after each change of state */
+    uint32_t sk_spectra;      /* spectral kurtosis block M (tl_sk.h): 0 = off, or 16 .. 65536 and at most
+                               * integration */
 } tl_config;
 
 /* Counters of one integration. Counts saturate at UINT32_MAX. */
@@ -87,6 +92,8 @@ typedef struct tl_product {
     uint32_t spectra;         /* spectra in the integration (= config integration), all states */
     uint32_t antenna_spectra; /* of them integrated into auto_power / cross (antenna state) */
     uint32_t discarded;       /* of them dropped after switch changes */
+    uint32_t sk_blocks;       /* spectral kurtosis blocks completed in this integration */
+    uint32_t sk_dropped;      /* antenna spectra of the block the integration's end cut short */
     uint32_t switch_steps;    /* 0: no switching */
     uint64_t first_frame;     /* frame number (N samples each, from 0) of the first spectrum's newest frame */
     uint32_t points, taps, inputs, channels;
@@ -106,11 +113,29 @@ typedef struct tl_product {
     tl_cal_sums cal[TL_STATES - 1u];                     /* [0] load, [1] load + noise source */
 } tl_product;
 
+/* One block of spectral kurtosis sums (tl_sk.h), taken with
+ * tl_chain_take_sk. The caller owns it (about 400 kB at host maxima). */
+typedef struct tl_sk_block {
+    uint32_t index;           /* integration the block belongs to */
+    uint32_t block;           /* block number within the integration, from 0 */
+    uint32_t spectra;         /* M */
+    uint32_t inputs, channels;
+    uint32_t det_shift;       /* P = round(|X|^2 / 2^det_shift) */
+    uint32_t sat;             /* channel sums saturated (S1 or S2) */
+    uint64_t first_frame;     /* frame number of the block's first spectrum's newest frame */
+    uint64_t s1[TL_MAX_INPUTS][TL_MAX_CHANNELS];
+    uint64_t s2_hi[TL_MAX_INPUTS][TL_MAX_CHANNELS];
+    uint64_t s2_lo[TL_MAX_INPUTS][TL_MAX_CHANNELS];
+} tl_sk_block;
+
 typedef struct tl_chain {
     uint32_t initialised;     /* TL_CHAIN_MAGIC after a successful init */
     tl_config cfg;            /* as resolved */
     uint32_t fill;            /* samples of the current frame received */
     uint32_t ready;           /* 1 when a finished integration waits */
+    uint32_t sk_ready;        /* 1 when a finished spectral kurtosis block waits */
+    uint32_t sk_blocks;       /* blocks finished in the running integration */
+    uint64_t sk_first_frame;  /* of the running block */
     uint32_t index;           /* integrations finished */
     uint64_t frames;          /* frames completed since init */
     uint64_t first_frame;     /* of the running integration */
@@ -123,6 +148,7 @@ typedef struct tl_chain {
     uint32_t spectra;         /* spectra in the running integration, all states */
     uint32_t discarded;       /* of them dropped after switch changes */
     tl_integrator integ[TL_STATES]; /* one bank per switch state */
+    tl_sk sk;                 /* spectral kurtosis sums of the running block */
     int32_t y[TL_MAX_POINTS];
     int32_t X[TL_MAX_INPUTS][TL_MAX_POINTS];
     uint64_t power[TL_MAX_CHANNELS];
@@ -171,7 +197,16 @@ uint32_t tl_chain_state(const tl_chain *c);
 int tl_chain_ready(const tl_chain *c);
 
 /* Copy the finished integration to *out and start the next one.
- * Returns TL_OK, TL_E_NULL, TL_E_NOT_INIT, TL_E_EMPTY. */
+ * Returns TL_OK, TL_E_NULL, TL_E_NOT_INIT, TL_E_EMPTY, or TL_E_BUSY when a
+ * spectral kurtosis block waits (take it first). */
 tl_status tl_chain_take(tl_chain *c, tl_product *out);
+
+/* 1 when a finished spectral kurtosis block waits to be taken. */
+int tl_chain_sk_ready(const tl_chain *c);
+
+/* Copy the finished block to *out (only the first `channels` entries of
+ * each row are meaningful; the rest are zero) and start the next block.
+ * Returns TL_OK, TL_E_NULL, TL_E_NOT_INIT, TL_E_EMPTY. */
+tl_status tl_chain_take_sk(tl_chain *c, tl_sk_block *out);
 
 #endif
