@@ -13,6 +13,7 @@ void tl_downlink_config_default(tl_downlink_config *cfg)
     memset(cfg, 0, sizeof *cfg);
     cfg->apid_science = 0x101u;
     cfg->apid_hk = 0x102u;
+    cfg->apid_sk = 0x103u;
     cfg->max_packet = TL_PACKET_MAX_LEN;
     cfg->encoding = TL_ENCODE_ID_LOSSLESS;
     cfg->transpose = TL_ENCODE_BIT_PLANES;
@@ -44,7 +45,8 @@ tl_status tl_downlink_init(tl_downlink *d, const tl_downlink_config *cfg)
         return TL_E_NULL;
     d->initialised = 0u;
     if (cfg->apid_science > TL_PACKET_APID_MAX || cfg->apid_hk > TL_PACKET_APID_MAX
-        || cfg->apid_science == cfg->apid_hk)
+        || cfg->apid_sk > TL_PACKET_APID_MAX || cfg->apid_science == cfg->apid_hk
+        || cfg->apid_sk == cfg->apid_science || cfg->apid_sk == cfg->apid_hk)
         return TL_E_APID;
     if (cfg->max_packet < TL_DL_MIN_PACKET || cfg->max_packet > TL_PACKET_MAX_LEN)
         return TL_E_PACKET_LEN;
@@ -174,54 +176,83 @@ static tl_status emit(tl_downlink *d, uint16_t apid, tl_cuc t, size_t user_len, 
     return TL_OK;
 }
 
-/* Split one section into packets. The count per packet is searched: from
- * a guess (the last packet's count plus an eighth), halve until it fits,
- * then bisect between the largest fit and the smallest misfit, at most
- * TL_DL_MAX_TRIES encodings per packet. */
+/* Encode channels [first, first + n) into d->user: TL_OK with the user
+ * data length, TL_E_SPACE when they do not fit a packet. */
+typedef tl_status (*try_fn)(tl_downlink *d, const void *ctx, uint32_t first, uint32_t n, size_t *len);
+
+/* How many channels from `first` fit one packet, with d->user holding
+ * their user data (*len octets) on return. The count is searched: from a
+ * guess, halve until it fits, then bisect between the largest fit and the
+ * smallest misfit, at most TL_DL_MAX_TRIES encodings, and at most `top`. */
+static tl_status fit_channels(tl_downlink *d, try_fn try_enc, const void *ctx, uint32_t first, uint32_t top,
+                              uint32_t guess, uint32_t *count, size_t *len)
+{
+    uint32_t lo = 0, hi = top + 1u, n = guess < top ? guess : top, last_ok = 0;
+    for (uint32_t tries = 0; tries < TL_DL_MAX_TRIES && hi - lo > 1u; tries++) {
+        const tl_status st = try_enc(d, ctx, first, n, len);
+        if (st == TL_OK) {
+            lo = n;
+            last_ok = n;
+        } else if (st == TL_E_SPACE) {
+            hi = n;
+            last_ok = 0;
+        } else {
+            return st;
+        }
+        if (hi - lo <= 1u || (lo > 0u && hi - lo <= hi / 32u))
+            break;
+        n = (lo == 0u) ? (n / 2u > 0u ? n / 2u : 1u) : lo + (hi - lo) / 2u;
+    }
+    if (lo == 0u) {
+        /* not even the halving reached a fit within the tries: one channel */
+        lo = 1u;
+        last_ok = 0u;
+    }
+    if (last_ok != lo) {
+        const tl_status st = try_enc(d, ctx, first, lo, len);
+        if (st != TL_OK)
+            return st; /* one channel always fits TL_DL_MIN_PACKET */
+    }
+    *count = lo;
+    return TL_OK;
+}
+
+typedef struct section_ctx {
+    const tl_product *p;
+    const section *sc;
+    uint16_t base_flags;
+} section_ctx;
+
+static tl_status try_section(tl_downlink *d, const void *ctx, uint32_t first, uint32_t n, size_t *len)
+{
+    const section_ctx *c = ctx;
+    return try_encode(d, c->p, c->sc, first, n, c->base_flags, len);
+}
+
+/* Split one section into packets (fit_channels), the next guess the last
+ * packet's count plus an eighth. */
 static tl_status emit_section(tl_downlink *d, const tl_product *p, const section *sc, tl_cuc t, uint16_t base_flags,
                               tl_downlink_sink sink, void *user)
 {
     const uint32_t channels = p->channels;
+    const section_ctx ctx = { p, sc, base_flags };
     uint32_t guess = TL_ENCODE_MAX_CHANNELS;
     for (uint32_t first = 0; first < channels;) {
         const uint32_t left = channels - first;
         const uint32_t top = left < TL_ENCODE_MAX_CHANNELS ? left : TL_ENCODE_MAX_CHANNELS;
-        uint32_t lo = 0, hi = top + 1u, n = guess < top ? guess : top, last_ok = 0;
+        uint32_t n = 0;
         size_t len = 0;
-        for (uint32_t tries = 0; tries < TL_DL_MAX_TRIES && hi - lo > 1u; tries++) {
-            const tl_status st = try_encode(d, p, sc, first, n, base_flags, &len);
-            if (st == TL_OK) {
-                lo = n;
-                last_ok = n;
-            } else if (st == TL_E_SPACE) {
-                hi = n;
-                last_ok = 0;
-            } else {
-                return st;
-            }
-            if (hi - lo <= 1u || (lo > 0u && hi - lo <= hi / 32u))
-                break;
-            n = (lo == 0u) ? (n / 2u > 0u ? n / 2u : 1u) : lo + (hi - lo) / 2u;
-        }
-        if (lo == 0u) {
-            /* not even the halving reached a fit within the tries: one channel */
-            lo = 1u;
-            last_ok = 0u;
-        }
-        if (last_ok != lo) {
-            const tl_status st = try_encode(d, p, sc, first, lo, base_flags, &len);
-            if (st != TL_OK)
-                return st; /* one channel always fits TL_DL_MIN_PACKET */
-        }
-        const tl_status st = emit(d, d->cfg.apid_science, t, len, sink, user);
+        tl_status st = fit_channels(d, try_section, &ctx, first, top, guess, &n, &len);
         if (st != TL_OK)
+            return st;
+        if ((st = emit(d, d->cfg.apid_science, t, len, sink, user)) != TL_OK)
             return st;
         add32(&d->stats.packets_science, 1u);
         add64(&d->stats.octets_science, TL_PACKET_LEN(len));
-        add64(&d->stats.octets_raw, 8u * (uint64_t)lo);
-        add32(&d->stats.channels_sent, lo);
-        first += lo;
-        guess = lo + lo / 8u + 1u;
+        add64(&d->stats.octets_raw, 8u * (uint64_t)n);
+        add32(&d->stats.channels_sent, n);
+        first += n;
+        guess = n + n / 8u + 1u;
     }
     return TL_OK;
 }
@@ -415,5 +446,129 @@ tl_status tl_downlink_parse_hk(const uint8_t *user, size_t len, tl_dl_hk *h)
         for (uint32_t q = 0; q < 4u; q++, o += 4u)
             r.acc_sat[st][q] = tl_get_be32(user + o);
     *h = r;
+    return TL_OK;
+}
+
+/* ---- spectral kurtosis blocks ------------------------------------------- */
+
+typedef struct sk_ctx {
+    const tl_sk_block *b;
+    uint32_t input;
+    uint32_t s2_shift;
+} sk_ctx;
+
+static uint64_t s2_shifted(const tl_sk_block *b, uint32_t input, uint32_t k, uint32_t shift)
+{
+    const uint64_t hi = b->s2_hi[input][k], lo = b->s2_lo[input][k];
+    if (shift == 0u)
+        return lo;
+    return (hi << (64u - shift)) | (lo >> shift);
+}
+
+static tl_status try_sk(tl_downlink *d, const void *ctx, uint32_t first, uint32_t n, size_t *len)
+{
+    const sk_ctx *c = ctx;
+    const tl_sk_block *b = c->b;
+    uint8_t *u = d->user;
+    u[TL_DL_OFF_VERSION] = (uint8_t)TL_DL_VERSION;
+    u[TL_DL_OFF_KIND] = (uint8_t)TL_DL_KIND_SK;
+    u[TL_DL_OFF_MODE] = d->cfg.mode;
+    u[TL_DL_SK_OFF_INPUT] = (uint8_t)c->input;
+    u[TL_DL_SK_OFF_ARITH] = (uint8_t)TL_ARITH_VERSION;
+    u[TL_DL_SK_OFF_DET_SHIFT] = (uint8_t)b->det_shift;
+    u[TL_DL_SK_OFF_S2_SHIFT] = (uint8_t)c->s2_shift;
+    u[TL_DL_SK_OFF_FLAGS] = (uint8_t)(b->sat ? TL_DL_SK_F_SAT : 0u);
+    tl_put_be32(u + TL_DL_SK_OFF_CONFIG_ID, d->cfg.config_id);
+    tl_put_be32(u + TL_DL_SK_OFF_INDEX, b->index);
+    tl_put_be32(u + TL_DL_SK_OFF_BLOCK, b->block);
+    tl_put_be32(u + TL_DL_SK_OFF_SPECTRA, b->spectra);
+    tl_put_be16(u + TL_DL_SK_OFF_CHANNELS, (uint16_t)b->channels);
+    tl_put_be16(u + TL_DL_SK_OFF_FIRST, (uint16_t)first);
+    tl_put_be16(u + TL_DL_SK_OFF_COUNT, (uint16_t)n);
+    tl_put_be16(u + TL_DL_SK_OFF_RESERVED, 0u);
+    /* S1 of the n channels, then S2 >> s2_shift, as one payload */
+    for (uint32_t k = 0; k < n; k++) {
+        d->ref[k] = b->s1[c->input][first + k];
+        d->ref[n + k] = s2_shifted(b, c->input, first + k, c->s2_shift);
+    }
+    const size_t cap = TL_PACKET_MAX_USER(d->cfg.max_packet) - TL_DL_SK_HEADER_OCTETS;
+    size_t w = 0;
+    const tl_status st = tl_encode_lossless_u64(&d->enc, d->ref, 2u * n, d->cfg.transpose,
+                                                u + TL_DL_SK_HEADER_OCTETS, cap, &w);
+    *len = TL_DL_SK_HEADER_OCTETS + w;
+    return st;
+}
+
+tl_status tl_downlink_sk(tl_downlink *d, const tl_sk_block *b, tl_downlink_sink sink, void *user)
+{
+    if (d == NULL || b == NULL || sink == NULL)
+        return TL_E_NULL;
+    if (d->initialised != TL_DOWNLINK_MAGIC)
+        return TL_E_NOT_INIT;
+    if (b->channels == 0u || b->channels > TL_MAX_CHANNELS || b->inputs < 1u || b->inputs > TL_MAX_INPUTS)
+        return TL_E_POINTS;
+    if (b->first_frame > UINT64_MAX / (2u * (uint64_t)b->channels))
+        return TL_E_TIME_RANGE;
+    tl_cuc t;
+    tl_status st = tl_cuc_from_samples(d->cfg.epoch, b->first_frame * 2u * b->channels, d->cfg.sample_rate_hz, &t);
+    if (st != TL_OK)
+        return st;
+    for (uint32_t i = 0; i < b->inputs; i++) {
+        /* one S2 shift for the whole input: the bit length of the largest high word */
+        uint64_t top = 0;
+        for (uint32_t k = 0; k < b->channels; k++)
+            top |= b->s2_hi[i][k];
+        uint32_t shift = 0;
+        while (shift < 64u && (top >> shift) != 0u)
+            shift++;
+        const sk_ctx ctx = { b, i, shift };
+        uint32_t guess = TL_DL_SK_MAX_CHANNELS;
+        for (uint32_t first = 0; first < b->channels;) {
+            const uint32_t left = b->channels - first;
+            const uint32_t top_n = left < TL_DL_SK_MAX_CHANNELS ? left : TL_DL_SK_MAX_CHANNELS;
+            uint32_t n = 0;
+            size_t len = 0;
+            if ((st = fit_channels(d, try_sk, &ctx, first, top_n, guess, &n, &len)) != TL_OK)
+                return st;
+            if ((st = emit(d, d->cfg.apid_sk, t, len, sink, user)) != TL_OK)
+                return st;
+            add32(&d->stats.packets_sk, 1u);
+            add64(&d->stats.octets_sk, TL_PACKET_LEN(len));
+            first += n;
+            guess = n + n / 8u + 1u;
+        }
+    }
+    return TL_OK;
+}
+
+tl_status tl_downlink_parse_sk(const uint8_t *user, size_t len, tl_dl_sk *v)
+{
+    if (user == NULL || v == NULL)
+        return TL_E_NULL;
+    if (len < TL_DL_SK_HEADER_OCTETS + 1u)
+        return TL_E_FORMAT;
+    tl_dl_sk r;
+    r.version = user[TL_DL_OFF_VERSION];
+    r.kind = user[TL_DL_OFF_KIND];
+    r.mode = user[TL_DL_OFF_MODE];
+    r.input = user[TL_DL_SK_OFF_INPUT];
+    r.arith = user[TL_DL_SK_OFF_ARITH];
+    r.det_shift = user[TL_DL_SK_OFF_DET_SHIFT];
+    r.s2_shift = user[TL_DL_SK_OFF_S2_SHIFT];
+    r.flags = user[TL_DL_SK_OFF_FLAGS];
+    r.config_id = tl_get_be32(user + TL_DL_SK_OFF_CONFIG_ID);
+    r.index = tl_get_be32(user + TL_DL_SK_OFF_INDEX);
+    r.block = tl_get_be32(user + TL_DL_SK_OFF_BLOCK);
+    r.spectra = tl_get_be32(user + TL_DL_SK_OFF_SPECTRA);
+    r.channels = tl_get_be16(user + TL_DL_SK_OFF_CHANNELS);
+    r.first = tl_get_be16(user + TL_DL_SK_OFF_FIRST);
+    r.count = tl_get_be16(user + TL_DL_SK_OFF_COUNT);
+    if (r.version != TL_DL_VERSION || r.kind != TL_DL_KIND_SK || r.input >= TL_MAX_INPUTS || r.s2_shift > 64u ||
+        r.spectra < TL_SK_MIN_SPECTRA || r.spectra > TL_SK_MAX_SPECTRA || r.channels == 0u || r.channels > 32768u ||
+        r.count == 0u || r.count > TL_DL_SK_MAX_CHANNELS || (uint32_t)r.first + (uint32_t)r.count > (uint32_t)r.channels)
+        return TL_E_FORMAT;
+    r.payload = user + TL_DL_SK_HEADER_OCTETS;
+    r.payload_len = len - TL_DL_SK_HEADER_OCTETS;
+    *v = r;
     return TL_OK;
 }

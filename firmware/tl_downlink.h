@@ -78,6 +78,7 @@
 #define TL_DL_VERSION 1u
 #define TL_DL_KIND_SPECTRUM 1u
 #define TL_DL_KIND_HOUSEKEEPING 2u
+#define TL_DL_KIND_SK 3u
 #define TL_DL_FIRMWARE_VERSION 0x000300u /* 0.3.0 */
 
 #define TL_DL_QTY_AUTO0 0u
@@ -122,9 +123,28 @@
 #define TL_DL_MIN_PACKET 512u
 #define TL_DL_MAX_TRIES 12u
 
+/* spectral kurtosis header (kind 3) field offsets; then the payload */
+#define TL_DL_SK_OFF_INPUT 3u
+#define TL_DL_SK_OFF_ARITH 4u
+#define TL_DL_SK_OFF_DET_SHIFT 5u
+#define TL_DL_SK_OFF_S2_SHIFT 6u
+#define TL_DL_SK_OFF_FLAGS 7u
+#define TL_DL_SK_OFF_CONFIG_ID 8u
+#define TL_DL_SK_OFF_INDEX 12u
+#define TL_DL_SK_OFF_BLOCK 16u
+#define TL_DL_SK_OFF_SPECTRA 20u
+#define TL_DL_SK_OFF_CHANNELS 24u
+#define TL_DL_SK_OFF_FIRST 26u
+#define TL_DL_SK_OFF_COUNT 28u
+#define TL_DL_SK_OFF_RESERVED 30u
+#define TL_DL_SK_HEADER_OCTETS 32u
+#define TL_DL_SK_F_SAT 0x01u      /* some S1 or S2 of the block saturated */
+#define TL_DL_SK_MAX_CHANNELS (TL_ENCODE_MAX_CHANNELS / 2u) /* S1 and S2 share one payload */
+
 typedef struct tl_downlink_config {
     uint16_t apid_science;   /* 0 .. 2046 */
     uint16_t apid_hk;        /* 0 .. 2046, different from apid_science */
+    uint16_t apid_sk;        /* 0 .. 2046, different from both */
     uint32_t max_packet;     /* whole packet octets, TL_DL_MIN_PACKET .. TL_PACKET_MAX_LEN */
     uint32_t encoding;       /* TL_ENCODE_ID_LOSSLESS or TL_ENCODE_ID_BOUNDED */
     uint32_t transpose;      /* TL_ENCODE_BYTE_SHUFFLE or TL_ENCODE_BIT_PLANES */
@@ -144,6 +164,8 @@ typedef struct tl_downlink_stats {
     uint64_t octets_hk;
     uint64_t octets_raw;       /* 8 octets per channel value sent: the uncompressed size */
     uint32_t channels_sent;    /* channel values sent */
+    uint32_t packets_sk;       /* spectral kurtosis packets */
+    uint64_t octets_sk;
 } tl_downlink_stats;
 
 /* Packets go to the caller's sink, one whole packet per call; the bytes
@@ -156,14 +178,15 @@ typedef struct tl_downlink {
     tl_encode enc;
     tl_downlink_stats stats;
     uint32_t initialised;                          /* TL_DOWNLINK_MAGIC */
-    uint64_t ref[TL_ENCODE_MAX_CHANNELS];          /* noise references for cross-power */
+    uint64_t ref[TL_ENCODE_MAX_CHANNELS];          /* noise references for cross-power; S1 and S2 of a block */
     uint8_t user[TL_PACKET_MAX_LEN];               /* user data being built */
     uint8_t packet[TL_PACKET_MAX_LEN];             /* packet being written */
 } tl_downlink;
 
 #define TL_DOWNLINK_MAGIC 0x544C444Cu
 
-/* Defaults: APIDs 0x101 (science) and 0x102 (housekeeping), 4095-octet
+/* Defaults: APIDs 0x101 (science), 0x102 (housekeeping), 0x103 (spectral
+ * kurtosis), 4095-octet
  * packets, lossless with the bit-plane transpose (it compresses better
  * than byte shuffle, docs/encoding.md), f = 1/8 and blocks of 32 for the
  * bounded encoding, mode 0, config id 0, epoch 0, 102.4 MHz. */
@@ -179,7 +202,7 @@ void tl_downlink_config_default(tl_downlink_config *cfg);
 uint32_t tl_downlink_config_id(const tl_config *cfg, uint32_t taps_crc);
 
 /* Check cfg and start the packet writer (sequence counts from 0).
- * Returns TL_OK, TL_E_NULL, TL_E_APID (an APID above 2046, or both the
+ * Returns TL_OK, TL_E_NULL, TL_E_APID (an APID above 2046, or two the
  * same), TL_E_PACKET_LEN (max_packet outside TL_DL_MIN_PACKET ..
  * TL_PACKET_MAX_LEN), TL_E_ENCODING (encoding, transpose or block out of
  * range), TL_E_NOISE_FRACTION, or TL_E_TIME_RANGE (sample rate 0). On error
@@ -193,6 +216,19 @@ tl_status tl_downlink_init(tl_downlink *d, const tl_downlink_config *cfg);
  * error; packets already emitted stay emitted. Never allocates; time is
  * bounded by channels x TL_DL_MAX_TRIES encoder passes. */
 tl_status tl_downlink_product(tl_downlink *d, const tl_product *p, int taps_ok, tl_downlink_sink sink, void *user);
+
+/* Packetise one spectral kurtosis block (tl_chain_take_sk) on APID
+ * apid_sk: per input, packets of kind TL_DL_KIND_SK covering channels 0 ..
+ * C-1 in contiguous ranges, each decodable alone. Header (32 octets,
+ * big-endian): version, kind 3, mode, input, arithmetic spec, detection
+ * shift, S2 shift s, flags (TL_DL_SK_F_SAT), configuration id, integration
+ * index, block number, spectra per block M, channels C (2), first channel
+ * (2), count n (2, at most TL_DL_SK_MAX_CHANNELS), reserved (2). Payload:
+ * one lossless tl_encode payload of 2n uint64 values: S1 of the n channels,
+ * then S2 / 2^s (s chosen per input as the bit length of the largest high
+ * word, so every value fits 64 bits; s = 0 keeps S2 exact). The packet time
+ * is the block's first spectrum. Returns as tl_downlink_product. */
+tl_status tl_downlink_sk(tl_downlink *d, const tl_sk_block *b, tl_downlink_sink sink, void *user);
 
 /* ---- the ground's view (parsers shared with the ground and the HIL) ---- */
 
@@ -236,5 +272,20 @@ typedef struct tl_dl_hk {
  * TL_DL_HK_OCTETS(counters). Returns TL_OK, TL_E_NULL or TL_E_FORMAT;
  * never reads beyond user[len - 1]; *h is written only on TL_OK. */
 tl_status tl_downlink_parse_hk(const uint8_t *user, size_t len, tl_dl_hk *h);
+
+typedef struct tl_dl_sk {
+    uint8_t version, kind, mode, input, arith, det_shift, s2_shift, flags;
+    uint32_t config_id, index, block, spectra;
+    uint16_t channels, first, count;
+    const uint8_t *payload;
+    size_t payload_len;
+} tl_dl_sk;
+
+/* Parse the user data of a spectral kurtosis packet. Checks: version 1,
+ * kind 3, input < 2, S2 shift <= 64, M in TL_SK_MIN_SPECTRA ..
+ * TL_SK_MAX_SPECTRA, channels 1 .. 32768, count 1 .. TL_DL_SK_MAX_CHANNELS,
+ * first + count <= channels, a payload. Returns TL_OK, TL_E_NULL or
+ * TL_E_FORMAT; never reads beyond user[len - 1]. */
+tl_status tl_downlink_parse_sk(const uint8_t *user, size_t len, tl_dl_sk *v);
 
 #endif

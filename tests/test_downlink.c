@@ -19,6 +19,8 @@
 
 #define MAX_PKTS 4096
 
+typedef unsigned __int128 u128_t; /* GCC/Clang extension: the test's reference for S2 */
+
 typedef struct capture {
     size_t n;
     size_t len[MAX_PKTS];
@@ -476,6 +478,73 @@ static void test_init_refuses(void **state)
     free(d);
 }
 
+/* Spectral kurtosis blocks: every packet decodes alone; S1 exact, S2
+ * exact (shift 0) or S2 / 2^s with s the bit length of the largest high
+ * word; the channel ranges tile each input. */
+static void test_sk_packets(void **state)
+{
+    (void)state;
+    tl_rng r;
+    tl_rng_seed(&r, tl_test_seed("downlink sk", 45));
+    tl_sk_block *b = calloc(1, sizeof *b);
+    tl_downlink *d = malloc(sizeof *d);
+    capture *c = calloc(1, sizeof *c);
+    static uint64_t v[TL_ENCODE_MAX_CHANNELS];
+    for (int big = 0; big < 2; big++) {
+        b->index = 3;
+        b->block = 5;
+        b->spectra = 256;
+        b->inputs = 2;
+        b->channels = 4096;
+        b->det_shift = 8;
+        b->first_frame = 4000;
+        for (uint32_t i = 0; i < 2; i++)
+            for (uint32_t k = 0; k < 4096; k++) {
+                const double mean = 1e7 * pow(1.0 + k / 64.0, -2.0);
+                b->s1[i][k] = (uint64_t)(256.0 * mean * (1.0 + tl_rng_normal(&r) / 16.0));
+                const double s2 = 2.0 * 256.0 * mean * mean * (big ? 1e6 : 1.0); /* E[P^2] = 2 mean^2 */
+                b->s2_hi[i][k] = (uint64_t)ldexp(s2, -64);
+                b->s2_lo[i][k] = (uint64_t)fmod(s2, 18446744073709551616.0);
+            }
+        tl_downlink_config cfg;
+        tl_downlink_config_default(&cfg);
+        assert_int_equal(tl_downlink_init(d, &cfg), TL_OK);
+        assert_int_equal(tl_downlink_sk(d, b, sink, c), TL_OK);
+        uint32_t next[2] = { 0, 0 };
+        for (size_t n = 0; n < c->n; n++) {
+            tl_packet_view pv;
+            tl_dl_sk h;
+            assert_int_equal(tl_packet_parse(c->pkt[n], c->len[n], &pv), TL_OK);
+            assert_int_equal(pv.apid, 0x103);
+            assert_int_equal(tl_downlink_parse_sk(pv.user, pv.user_len, &h), TL_OK);
+            assert_int_equal(h.first, next[h.input]);
+            next[h.input] += h.count;
+            assert_int_equal(h.block, 5);
+            assert_int_equal(h.spectra, 256);
+            assert_int_equal(tl_spectral_decode_u64(h.payload, h.payload_len, v, NULL, TL_ENCODE_MAX_CHANNELS, NULL),
+                             TL_OK);
+            for (uint32_t k = 0; k < h.count; k++) {
+                const uint32_t ch = h.first + k;
+                assert_true(v[k] == b->s1[h.input][ch]);
+                const u128_t s2 = ((u128_t)b->s2_hi[h.input][ch] << 64) | b->s2_lo[h.input][ch];
+                assert_true((u128_t)v[h.count + k] == (s2 >> h.s2_shift));
+            }
+            if (!big)
+                assert_int_equal(h.s2_shift, 0);
+            else
+                assert_true(h.s2_shift > 0 && h.s2_shift <= 64);
+        }
+        assert_int_equal(next[0], 4096);
+        assert_int_equal(next[1], 4096);
+        printf("    SK block, 2 x 4096 channels%s: %u packets, %llu octets\n", big ? " (S2 above 2^64)" : "",
+               d->stats.packets_sk, (unsigned long long)d->stats.octets_sk);
+        capture_free(c);
+    }
+    free(b);
+    free(d);
+    free(c);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -485,6 +554,7 @@ int main(void)
         cmocka_unit_test(test_housekeeping_round_trip),
         cmocka_unit_test(test_config_id),
         cmocka_unit_test(test_init_refuses),
+        cmocka_unit_test(test_sk_packets),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
