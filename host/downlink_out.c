@@ -60,6 +60,7 @@ int tl_downlink_out_config(const tl_scenario *s, const tl_product *p, tl_downlin
     tl_downlink_config_default(dc);
     dc->apid_science = (uint16_t)s->dl_apid_science;
     dc->apid_hk = (uint16_t)s->dl_apid_hk;
+    dc->apid_sk = (uint16_t)s->dl_apid_sk;
     dc->max_packet = s->dl_max_packet;
     dc->encoding = s->dl_encoding ? TL_ENCODE_ID_BOUNDED : TL_ENCODE_ID_LOSSLESS;
     dc->transpose = s->dl_transpose ? TL_ENCODE_BIT_PLANES : TL_ENCODE_BYTE_SHUFFLE;

@@ -150,6 +150,10 @@ static const key_def keys[] = {
       "Excess noise temperature the noise source adds to the load." },
     { "fit", "foreground_order", K_U32, OFF(fit_order), 0, 1, 8, 1, NULL, 0, "",
       "Order of the log-polynomial foreground fitted under a trough." },
+    { "flagging", "sk_block", K_U32, OFF(cfg.sk_spectra), 0, 0, TL_SK_MAX_SPECTRA, 1, NULL, 0, "spectra",
+      "Spectral kurtosis: antenna spectra per block of on-board sums (0 = off, else 16 or more)." },
+    { "flagging", "false_alarm", K_REAL, OFF(sk_false_alarm), 0, 1e-6, 0.2, 1, NULL, 0, "",
+      "Probability that Gaussian noise is flagged in one channel and block (both tails together)." },
     { "downlink", "encoding", K_CHOICE, OFF(dl_encoding), 0, 0, 0, 1, encoding_names, 0, "",
       "Spectral encoding: lossless, or bounded (each value quantized to noise_fraction of its radiometer noise)." },
     { "downlink", "noise_fraction", K_REAL, OFF(dl_fraction), 0, 0.015625, 1, 1, NULL, 0, "",
@@ -168,6 +172,8 @@ static const key_def keys[] = {
       "APID of the housekeeping packets." },
     { "downlink", "spacecraft_id", K_U32, OFF(dl_scid), 0, 0, 1023, 1, NULL, 0, "", "Spacecraft id in the frame header." },
     { "downlink", "virtual_channel", K_U32, OFF(dl_vcid), 0, 0, 7, 1, NULL, 0, "", "Virtual channel id of the frames." },
+    { "downlink", "apid_kurtosis", K_U32, OFF(dl_apid_sk), 0, 0, TL_PACKET_APID_MAX, 1, NULL, 0, "",
+      "APID of the spectral kurtosis packets." },
     { "downlink", "mode", K_U32, OFF(dl_mode), 0, 0, 255, 1, NULL, 0, "", "Instrument mode copied into every packet." },
     { "budget", "link_rate_kbps", K_REAL, OFF(bud_rate_bps), 0, 0.1, 1e5, 1e3, NULL, 0, "kbit/s",
       "Relay link rate available to the instrument during a pass." },
@@ -190,8 +196,8 @@ static const key_def keys[] = {
 #define NKEYS (sizeof keys / sizeof keys[0])
 
 static const char *const sections[] = { "scenario", "instrument", "integration", "sky",      "interference",
-                                        "fidelity", "switching",   "fit",         "downlink", "budget",
-                                        "output" };
+                                        "fidelity", "switching",   "fit",         "flagging", "downlink",
+                                        "budget",   "output" };
 #define NSECTIONS (sizeof sections / sizeof sections[0])
 
 /* Fields that other keys determine. */
@@ -231,6 +237,8 @@ void tl_scenario_nominal(tl_scenario *s)
     s->dl_frame_len = 1024;
     s->dl_apid_science = 0x101;
     s->dl_apid_hk = 0x102;
+    s->dl_apid_sk = 0x103;
+    s->sk_false_alarm = 0.0027;
     s->dl_scid = 421;
     s->dl_vcid = 1;
     s->dl_mode = 0;
@@ -867,6 +875,16 @@ static int check_relations(const tl_scenario *s, const char *path, const int *li
     if (s->dl_apid_science == s->dl_apid_hk)
         return fail_key(s, path, lines, "downlink", "apid_housekeeping", err, cap,
                         "must differ from apid_science = %u", s->dl_apid_science);
+    if (s->dl_apid_sk == s->dl_apid_science || s->dl_apid_sk == s->dl_apid_hk)
+        return fail_key(s, path, lines, "downlink", "apid_kurtosis", err, cap,
+                        "must differ from apid_science = %u and apid_housekeeping = %u", s->dl_apid_science,
+                        s->dl_apid_hk);
+    if (s->cfg.sk_spectra != 0u && s->cfg.sk_spectra < TL_SK_MIN_SPECTRA)
+        return fail_key(s, path, lines, "flagging", "sk_block", err, cap, "must be 0 (off) or at least %u spectra",
+                        TL_SK_MIN_SPECTRA);
+    if (s->cfg.sk_spectra > s->spectra)
+        return fail_key(s, path, lines, "flagging", "sk_block", err, cap,
+                        "must be at most [integration] spectra = %u", s->spectra);
     return check_sky_relations(s, path, lines, err, cap);
 }
 

@@ -3,7 +3,7 @@
  *
  * A scenario file is INI (parsed with Debian's inih), one section per
  * concern: [scenario], [instrument], [integration], [sky], [interference],
- * [fidelity], [switching], [fit], [downlink], [budget], [output]. Every key is optional (the built-in default fills
+ * [fidelity], [switching], [fit], [flagging], [downlink], [budget], [output]. Every key is optional (the built-in default fills
  * it in), every given key is checked for type and range, and unknown
  * sections or keys, repeated keys, indented continuation lines, lines
  * longer than 199 characters, text after a section header, "key: value",
@@ -54,7 +54,9 @@ typedef struct tl_scenario {
     unsigned dl_transpose;    /* 0 byte shuffle, 1 bit planes */
     uint32_t dl_max_packet;   /* octets */
     uint32_t dl_frame_len;    /* octets, ASM excluded */
-    uint32_t dl_apid_science, dl_apid_hk, dl_scid, dl_vcid, dl_mode;
+    uint32_t dl_apid_science, dl_apid_hk, dl_apid_sk, dl_scid, dl_vcid, dl_mode;
+    /* [flagging]: spectral kurtosis (cfg.sk_spectra is the block) */
+    double sk_false_alarm;    /* two-sided false-alarm probability per channel and block */
     /* [budget]: the link and storage the downlink must fit */
     double bud_rate_bps;      /* relay link rate while in contact */
     double bud_contact_h;     /* hours between relay contacts (storage must last) */

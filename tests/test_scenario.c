@@ -274,6 +274,9 @@ static void modified(tl_scenario *s)
     s->dl_frame_len = 256;
     s->dl_apid_science = 17;
     s->dl_apid_hk = 18;
+    s->dl_apid_sk = 19;
+    s->cfg.sk_spectra = 64;
+    s->sk_false_alarm = 0.01;
     s->dl_scid = 1023;
     s->dl_vcid = 7;
     s->dl_mode = 3;
@@ -300,8 +303,8 @@ static void test_round_trip_every_key(void **state)
     assert_int_equal(tl_scenario_check(&mod, NULL, err, sizeof err), 0);
     char *text = written(&mod);
     char *deftext = written(&def);
-    /* every one of the 51 key lines differs from the default file */
-    assert_int_equal(differing_lines(text, deftext), 51);
+    /* every one of the 54 key lines differs from the default file */
+    assert_int_equal(differing_lines(text, deftext), 54);
     expect_loads(text, &back);
     assert_scenario_equal(&back, &mod, "round trip");
     free(text);
@@ -589,7 +592,7 @@ typedef struct case_ {
     const char *suffix; /* expected message after the path; NULL: loads */
 } case_;
 
-#define SECTIONS "(sections: scenario, instrument, integration, sky, interference, fidelity, switching, fit, downlink, budget, output)"
+#define SECTIONS "(sections: scenario, instrument, integration, sky, interference, fidelity, switching, fit, flagging, downlink, budget, output)"
 #define INSTRUMENT_KEYS                                                                                               \
     "(keys of [instrument]: sample_rate_mhz, adc_bits, adc_full_scale_v, dc_offset_lsb, inputs, channels, taps, window, "            \
     "fft_scaling, rounding, detection_shift)"
@@ -643,6 +646,12 @@ static const case_ cases[] = {
       ":3: [sky] lowpass_mhz = '4': must be above highpass_mhz = 5 MHz" },
     { "relation: one APID for both", "[downlink]\napid_housekeeping = 257\n",
       ":2: [downlink] apid_housekeeping = '257': must differ from apid_science = 257" },
+    { "relation: kurtosis APID taken", "[downlink]\napid_kurtosis = 258\n",
+      ":2: [downlink] apid_kurtosis = '258': must differ from apid_science = 257 and apid_housekeeping = 258" },
+    { "relation: SK block below 16", "[flagging]\nsk_block = 15\n",
+      ":2: [flagging] sk_block = '15': must be 0 (off) or at least 16 spectra" },
+    { "relation: SK block above the integration", "[flagging]\nsk_block = 8192\n",
+      ":2: [flagging] sk_block = '8192': must be at most [integration] spectra = 4096" },
     { "range: packet below the downlink minimum", "[downlink]\nmax_packet = 511\n",
       ":2: [downlink] max_packet = '511': must be an integer from 512 to 4095 octets" },
     { "relation: extrapolate_to below spectra", "[fidelity]\nextrapolate_to = 4095\n",
@@ -1021,7 +1030,7 @@ static void test_strict_syntax(void **state)
     /* a section name of any length is checked */
     expect_error("[qqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqq]\n",
                  ":1: [qqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqq]: unknown section "
-                 "(sections: scenario, instrument, integration, sky, interference, fidelity, switching, fit, downlink, budget, output)");
+                 "(sections: scenario, instrument, integration, sky, interference, fidelity, switching, fit, flagging, downlink, budget, output)");
 }
 
 /* Numbers are written so that they read back exactly. */
