@@ -19,6 +19,7 @@ void tl_config_default(tl_config *cfg)
     }
     cfg->switch_discard = 0;
     cfg->sk_spectra = 0;
+    cfg->sk_accumulate = 1;
 }
 
 uint32_t tl_config_det_shift(const tl_config *cfg)
@@ -47,9 +48,10 @@ static tl_status check_config(const tl_config *cfg)
         return TL_E_ROUNDING;
     if (cfg->det_shift != TL_DET_SHIFT_AUTO && cfg->det_shift > TL_MAX_DET_SHIFT)
         return TL_E_DET_SHIFT;
-    if (cfg->sk_spectra != 0u &&
-        (cfg->sk_spectra < TL_SK_MIN_SPECTRA || cfg->sk_spectra > TL_SK_MAX_SPECTRA ||
-         cfg->sk_spectra > cfg->integration))
+    const uint32_t skn = cfg->sk_accumulate ? cfg->sk_accumulate : 1u;
+    if (skn > TL_SK_MAX_ACCUMULATE ||
+        (cfg->sk_spectra != 0u && (cfg->sk_spectra < TL_SK_MIN_SPECTRA || cfg->sk_spectra > TL_SK_MAX_SPECTRA ||
+                                   (uint64_t)cfg->sk_spectra * skn > cfg->integration)))
         return TL_E_SK;
     return TL_OK;
 }
@@ -96,7 +98,8 @@ tl_status tl_chain_init(tl_chain *c, const tl_config *cfg, const uint8_t *taps_i
     st = tl_switch_init(&c->sw, cfg->switch_steps, cfg->switch_state, cfg->switch_dwell, cfg->switch_discard);
     if (st != TL_OK)
         return st;
-    st = tl_sk_init(&c->sk, cfg->sk_spectra, cfg->points / 2u, cfg->inputs);
+    st = tl_sk_init(&c->sk, cfg->sk_spectra, cfg->sk_accumulate ? cfg->sk_accumulate : 1u, cfg->points / 2u,
+                    cfg->inputs);
     if (st != TL_OK)
         return st;
     st = (taps_image == NULL) ? tl_taps_default(&c->taps) : tl_taps_load_image(&c->taps, taps_image, image_len);
@@ -206,7 +209,7 @@ static void process_frame(tl_chain *c)
     if (keep) {
         tl_integrator *it = &c->integ[state];
         const int sk = state == TL_STATE_ANTENNA && c->sk.m != 0u;
-        if (sk && c->sk.count == 0u)
+        if (sk && c->sk.count == 0u && c->sk.inner == 0u)
             c->sk_first_frame = c->frames - 1u;
         for (uint32_t i = 0; i < c->cfg.inputs; i++) {
             tl_detect_power(c->X[i], channels, shift, mode, c->power);
@@ -277,7 +280,7 @@ tl_status tl_chain_take(tl_chain *c, tl_product *out)
     out->antenna_spectra = ant->spectra;
     out->discarded = c->discarded;
     out->sk_blocks = c->sk_blocks;
-    out->sk_dropped = c->sk.count;
+    out->sk_dropped = c->sk.count * c->sk.n + c->sk.inner;
     out->switch_steps = c->cfg.switch_steps;
     out->first_frame = c->first_frame;
     out->points = c->cfg.points;
@@ -340,6 +343,7 @@ tl_status tl_chain_take_sk(tl_chain *c, tl_sk_block *out)
     out->index = c->index;
     out->block = c->sk_blocks;
     out->spectra = c->sk.m;
+    out->accumulate = c->sk.n;
     out->inputs = c->cfg.inputs;
     out->channels = c->cfg.points / 2u;
     out->det_shift = c->cfg.det_shift;

@@ -54,8 +54,9 @@ typedef struct tl_config {
     uint8_t switch_state[TL_MAX_SWITCH_STEPS];  /* TL_STATE_* per step */
     uint32_t switch_dwell[TL_MAX_SWITCH_STEPS]; /* frames (spectra) per step */
     uint32_t switch_discard;  /* spectra not integrated after each change of state */
-    uint32_t sk_spectra;      /* spectral kurtosis block M (tl_sk.h): 0 = off, or 16 .. 65536 and at most
-                               * integration */
+    uint32_t sk_spectra;      /* spectral kurtosis values per block M (tl_sk.h): 0 = off, or 16 .. 65536,
+                               * with M x sk_accumulate at most integration */
+    uint32_t sk_accumulate;   /* spectra summed into each value N: 1 .. 65536 (0 is taken as 1) */
 } tl_config;
 
 /* Counters of one integration. Counts saturate at UINT32_MAX. */
@@ -93,7 +94,8 @@ typedef struct tl_product {
     uint32_t antenna_spectra; /* of them integrated into auto_power / cross (antenna state) */
     uint32_t discarded;       /* of them dropped after switch changes */
     uint32_t sk_blocks;       /* spectral kurtosis blocks completed in this integration */
-    uint32_t sk_dropped;      /* antenna spectra of the block the integration's end cut short */
+    uint32_t sk_dropped;      /* antenna spectra of the block the integration's end cut short (values x N
+                               * plus the spectra of the running value) */
     uint32_t switch_steps;    /* 0: no switching */
     uint64_t first_frame;     /* frame number (N samples each, from 0) of the first spectrum's newest frame */
     uint32_t points, taps, inputs, channels;
@@ -118,7 +120,8 @@ typedef struct tl_product {
 typedef struct tl_sk_block {
     uint32_t index;           /* integration the block belongs to */
     uint32_t block;           /* block number within the integration, from 0 */
-    uint32_t spectra;         /* M */
+    uint32_t spectra;         /* M values */
+    uint32_t accumulate;      /* N spectra per value */
     uint32_t inputs, channels;
     uint32_t det_shift;       /* P = round(|X|^2 / 2^det_shift) */
     uint32_t sat;             /* channel sums saturated (S1 or S2) */

@@ -50,11 +50,13 @@ static void test_sums_and_saturation(void **state)
     tl_rng r;
     tl_rng_seed(&r, tl_test_seed("sk sums", 72));
     static tl_sk sk;
-    assert_int_equal(tl_sk_init(&sk, 16, 0, 1), TL_E_POINTS);
-    assert_int_equal(tl_sk_init(&sk, 15, 8, 1), TL_E_SK);
-    assert_int_equal(tl_sk_init(&sk, 65537, 8, 1), TL_E_SK);
-    assert_int_equal(tl_sk_init(&sk, 16, 8, 3), TL_E_INPUTS);
-    assert_int_equal(tl_sk_init(&sk, 64, 8, 2), TL_OK);
+    assert_int_equal(tl_sk_init(&sk, 16, 1, 0, 1), TL_E_POINTS);
+    assert_int_equal(tl_sk_init(&sk, 15, 1, 8, 1), TL_E_SK);
+    assert_int_equal(tl_sk_init(&sk, 65537, 1, 8, 1), TL_E_SK);
+    assert_int_equal(tl_sk_init(&sk, 16, 1, 8, 3), TL_E_INPUTS);
+    assert_int_equal(tl_sk_init(&sk, 16, 0, 8, 1), TL_E_SK);
+    assert_int_equal(tl_sk_init(&sk, 16, 65537, 8, 1), TL_E_SK);
+    assert_int_equal(tl_sk_init(&sk, 64, 1, 8, 2), TL_OK);
     u128 s1[2][8] = { { 0 } }, s2[2][8] = { { 0 } };
     uint64_t p[8];
     int done = 0;
@@ -91,7 +93,7 @@ static void test_sums_and_saturation(void **state)
     assert_true(sk.s2_hi[0][0] == UINT64_MAX && sk.s2_lo[0][0] == UINT64_MAX);
     assert_true(sk.sat >= 16);
     /* off: nothing is added, no block ever completes */
-    assert_int_equal(tl_sk_init(&sk, 0, 8, 1), TL_OK);
+    assert_int_equal(tl_sk_init(&sk, 0, 1, 8, 1), TL_OK);
     tl_sk_add(&sk, 0, p);
     assert_true(sk.s1[0][0] == 0);
     assert_int_equal(tl_sk_spectrum_done(&sk), 0);
@@ -201,6 +203,76 @@ static void test_chain_blocks(void **state)
     /* the first block's first spectrum is frame 3 (after 3 history frames) */
     assert_int_equal(blk[0].first_frame, 3);
     assert_int_equal(blk[1].first_frame, 3 + B);
+    free(a);
+    free(b);
+    free(blk);
+    free(p);
+    free(p1);
+    free(c);
+    free(c1);
+}
+
+/* N = 4 spectra per value: a block spans M x N = 64 spectra; S1 adds up
+ * to the integration, S2 is the sum of squares of the 4-spectrum sums of
+ * single-spectrum powers (a second chain integrating one at a time). */
+static void test_chain_accumulated_values(void **state)
+{
+    (void)state;
+    const uint32_t N = 8192, M = 128, B = 16, A = 4;
+    const size_t n = (size_t)(3u + M) * N;
+    int16_t *a = malloc(n * sizeof *a), *b = malloc(n * sizeof *b);
+    noise(a, b, n, 9);
+    tl_config cfg;
+    tl_config_default(&cfg);
+    cfg.integration = M;
+    cfg.det_shift = 8;
+    cfg.sk_spectra = B;
+    cfg.sk_accumulate = A;
+    tl_chain *c = tl_test_chain();
+    tl_product *p = tl_test_product();
+    tl_sk_block *blk = malloc(sizeof *blk * 4);
+    cfg.sk_accumulate = 9; /* 16 x 9 > 128 */
+    assert_int_equal(tl_chain_init(c, &cfg, NULL, 0), TL_E_SK);
+    cfg.sk_accumulate = A;
+    assert_int_equal(tl_chain_init(c, &cfg, NULL, 0), TL_OK);
+    unsigned products = 0;
+    assert_int_equal(push_all(c, a, b, n, blk, 4, p, &products), 2);
+    assert_int_equal(blk[0].accumulate, A);
+    assert_int_equal(blk[1].first_frame, 3 + B * A);
+    tl_config one = cfg;
+    one.integration = 1;
+    one.sk_spectra = 0;
+    tl_chain *c1 = tl_test_chain();
+    tl_product *p1 = tl_test_product();
+    assert_int_equal(tl_chain_init(c1, &one, NULL, 0), TL_OK);
+    static uint64_t acc[4096];
+    static u128 s2[4096];
+    memset(acc, 0, sizeof acc);
+    memset(s2, 0, sizeof s2);
+    unsigned spec = 0;
+    size_t done = 0;
+    while (done < n) {
+        size_t used = 0;
+        assert_int_equal(tl_chain_push(c1, a + done, b + done, n - done, &used), TL_OK);
+        done += used;
+        if (!tl_chain_ready(c1))
+            continue;
+        assert_int_equal(tl_chain_take(c1, p1), TL_OK);
+        if (spec >= B * A) { /* the second block: spectra 64 .. 127 */
+            for (unsigned k = 0; k < 4096; k++)
+                acc[k] += p1->auto_power[1][k];
+            if ((spec + 1u) % A == 0u)
+                for (unsigned k = 0; k < 4096; k++) {
+                    s2[k] += (u128)acc[k] * acc[k];
+                    acc[k] = 0;
+                }
+        }
+        spec++;
+    }
+    for (unsigned k = 0; k < 4096; k++) {
+        assert_true(join(blk[1].s2_hi[1][k], blk[1].s2_lo[1][k]) == s2[k]);
+        assert_true((u128)blk[0].s1[0][k] + blk[1].s1[0][k] == (u128)p->auto_power[0][k]);
+    }
     free(a);
     free(b);
     free(blk);
@@ -332,6 +404,7 @@ int main(void)
         cmocka_unit_test(test_square_exact),
         cmocka_unit_test(test_sums_and_saturation),
         cmocka_unit_test(test_chain_blocks),
+        cmocka_unit_test(test_chain_accumulated_values),
         cmocka_unit_test(test_config_and_partial_blocks),
         cmocka_unit_test(test_gaussian_statistics),
     };
