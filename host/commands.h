@@ -24,6 +24,9 @@ int tl_cmd_simulate(int argc, char **argv);
 /* tidelock replay NAME.sigmf-meta [SCENARIO.ini] [-o DIR] [--block-kib N] [-q] */
 int tl_cmd_replay(int argc, char **argv);
 
+/* tidelock decode INPUT [SCENARIO.ini] -o DIR [--raw] [--frame-length L] [-q] */
+int tl_cmd_decode(int argc, char **argv);
+
 /* tidelock budget [SCENARIO.ini] [-o DIR] [-q] */
 int tl_cmd_budget(int argc, char **argv);
 

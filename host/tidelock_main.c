@@ -36,6 +36,7 @@ static const char *const main_help =
     "  scenario  print the default scenario file, or check one\n"
     "  simulate  write a scenario's ADC voltages as a SigMF recording (ri16_le)\n"
     "  replay    run a SigMF recording through the chain and the reference, as run does\n"
+    "  decode    rebuild the spectra from recorded transfer frames or space packets, with a log\n"
     "  budget    the downlink budget: volumes, link time, storage and their margins\n"
     "  tables    write a filterbank coefficient table image, or the committed table sources\n"
     "  help      help on a command (tidelock help run)\n"
@@ -297,6 +298,8 @@ int main(int argc, char **argv)
             return (topic[0] == 's' ? tl_cmd_simulate : tl_cmd_replay)(2, (char *[]){ argv[2], "--help", NULL });
         if (strcmp(topic, "budget") == 0)
             return tl_cmd_budget(2, (char *[]){ argv[2], "--help", NULL });
+        if (strcmp(topic, "decode") == 0)
+            return tl_cmd_decode(2, (char *[]){ argv[2], "--help", NULL });
         fputs(strcmp(topic, "run") == 0        ? run_help
               : strcmp(topic, "scenario") == 0 ? scenario_help
               : strcmp(topic, "tables") == 0   ? tables_help
@@ -312,12 +315,15 @@ int main(int argc, char **argv)
         return tl_cmd_simulate(argc - 1, argv + 1);
     if (strcmp(cmd, "replay") == 0)
         return tl_cmd_replay(argc - 1, argv + 1);
+    if (strcmp(cmd, "decode") == 0)
+        return tl_cmd_decode(argc - 1, argv + 1);
     if (strcmp(cmd, "budget") == 0)
         return tl_cmd_budget(argc - 1, argv + 1);
     if (strcmp(cmd, "tables") == 0)
         return cmd_tables(argc - 1, argv + 1);
     fprintf(stderr,
-            "tidelock: unknown command '%s' (commands: run, scenario, simulate, replay, budget, tables, help; "
+            "tidelock: unknown command '%s' (commands: run, scenario, simulate, replay, decode, budget, tables, "
+            "help; "
             "see tidelock --help)\n",
             cmd);
     return EXIT_USAGE;
