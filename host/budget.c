@@ -125,14 +125,25 @@ int tl_budget_compute(const tl_scenario *s, tl_budget *b, char *err, size_t cap)
         snprintf(err, cap, "budget: out of memory");
         goto out;
     }
-    const tl_status st = tl_run_firmware(s, p);
+    tl_run_result *rr = calloc(1, sizeof *rr); /* only its kurtosis part is used */
+    if (rr == NULL) {
+        snprintf(err, cap, "budget: out of memory");
+        goto out;
+    }
+    const tl_status st = s->cfg.sk_spectra ? tl_run_kurtosis(s, p, &rr->sk) : tl_run_firmware(s, p);
     if (st != TL_OK) {
         snprintf(err, cap, "budget: scenario %s: %s (%s)", s->name, tl_status_text(st), tl_status_name(st));
+        free(rr);
         goto out;
     }
     b->sim_spectra = s->spectra;
     b->flight_spectra = s->flight_spectra ? s->flight_spectra : s->spectra;
-    if (tl_downlink_out_make(s, p, &b->sim, NULL, NULL, NULL, NULL, err, cap) != 0)
+    const int mk = tl_downlink_out_make_all(s, p, rr->sk.blocks, rr->sk.nblocks, &b->sim, NULL, NULL, NULL, NULL, err,
+                                            cap);
+    const uint32_t sim_blocks = rr->sk.nblocks;
+    tl_run_release(rr);
+    free(rr);
+    if (mk != 0)
         goto out;
     if (flight_product(s, p, b->flight_spectra, f) != 0) {
         snprintf(err, cap, "budget: out of memory");
@@ -141,7 +152,15 @@ int tl_budget_compute(const tl_scenario *s, tl_budget *b, char *err, size_t cap)
 
     if (tl_downlink_out_make(s, f, &b->flight, NULL, NULL, NULL, NULL, err, cap) != 0)
         goto out;
-    const double pk = (double)(b->flight.octets_science + b->flight.octets_hk);
+    /* kurtosis blocks of the flight integration: the simulated blocks'
+     * octets per block (an upper bound: the flight's larger detection shift
+     * leaves fewer bits in P) times the flight's blocks */
+    if (s->cfg.sk_spectra > 0u && sim_blocks > 0u) {
+        b->sk_blocks_flight = f->antenna_spectra / (s->cfg.sk_spectra * (s->cfg.sk_accumulate ? s->cfg.sk_accumulate : 1u));
+        b->sk_octets_per_block = (double)b->sim.octets_sk / sim_blocks;
+    }
+    const double pk = (double)(b->flight.octets_science + b->flight.octets_hk) +
+                      b->sk_octets_per_block * b->sk_blocks_flight;
     /* in a continuous stream the frames carry packets back to back: the
      * link octets are the packet octets times wire length over data length */
     b->link_octets = pk * (double)TL_FRAME_WIRE_LEN(s->dl_frame_len) / (double)TL_FRAME_DATA_LEN(s->dl_frame_len);
@@ -189,6 +208,11 @@ void tl_budget_print(FILE *out, const tl_scenario *s, const tl_budget *b)
                  "packets, %llu octets, compression x%.2f\n",
             b->flight_spectra, b->product_s, b->flight.packets_science, b->flight.packets_hk,
             (unsigned long long)(b->flight.octets_science + b->flight.octets_hk), ratio(&b->flight));
+    if (b->sk_blocks_flight)
+        fprintf(out, "spectral kurtosis: %u blocks of %u x %u spectra per flight integration x %.0f octets = %.0f "
+                     "octets (measured on the %u-spectrum simulation: an upper bound)\n",
+                b->sk_blocks_flight, s->cfg.sk_spectra, s->cfg.sk_accumulate, b->sk_octets_per_block,
+                b->sk_octets_per_block * b->sk_blocks_flight, b->sim_spectra);
     fprintf(out, "on the link: %.0f octets per product (frames %.1f%% efficient), %.1f bit/s while observing\n",
             b->link_octets, 100.0 * b->frame_efficiency, b->rate_bps);
     fprintf(out, "volume: %.3f MB per hour observing; %.2f MB per lunar night (%.0f%% observing), %.2f MB per lunar "
@@ -234,6 +258,8 @@ int tl_budget_write_json(const char *path, const tl_scenario *s, const tl_budget
     json_object_set_new(root, "product_s", json_real(b->product_s));
     json_object_set_new(root, "simulated", dl_json(&b->sim));
     json_object_set_new(root, "flight", dl_json(&b->flight));
+    json_object_set_new(root, "kurtosis_blocks_per_product", json_integer(b->sk_blocks_flight));
+    json_object_set_new(root, "kurtosis_octets_per_block", json_real(b->sk_octets_per_block));
     json_object_set_new(root, "link_octets_per_product", json_real(b->link_octets));
     json_object_set_new(root, "frame_efficiency", json_real(b->frame_efficiency));
     json_object_set_new(root, "rate_bps", json_real(b->rate_bps));

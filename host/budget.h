@@ -46,6 +46,8 @@ typedef struct tl_budget {
     uint32_t sim_spectra, flight_spectra;
     double product_s;              /* one flight integration, s */
     tl_dl_result sim, flight;      /* packets of the two products */
+    uint32_t sk_blocks_flight;     /* spectral kurtosis blocks per flight integration (0: off) */
+    double sk_octets_per_block;    /* their packets, measured on the simulated blocks */
     double link_octets;            /* flight product on the link: packets in frames incl. sync markers */
     double frame_efficiency;       /* packet octets / link octets */
     double rate_bps;               /* while observing */

@@ -82,6 +82,13 @@ int tl_downlink_out_config(const tl_scenario *s, const tl_product *p, tl_downlin
 int tl_downlink_out_make(const tl_scenario *s, const tl_product *p, tl_dl_result *res, uint8_t **packets,
                          size_t *packets_len, uint8_t **frames, size_t *frames_len, char *err, size_t cap)
 {
+    return tl_downlink_out_make_all(s, p, NULL, 0, res, packets, packets_len, frames, frames_len, err, cap);
+}
+
+int tl_downlink_out_make_all(const tl_scenario *s, const tl_product *p, const tl_sk_block *blocks, uint32_t nblocks,
+                             tl_dl_result *res, uint8_t **packets, size_t *packets_len, uint8_t **frames,
+                             size_t *frames_len, char *err, size_t cap)
+{
     memset(res, 0, sizeof *res);
     tl_downlink_config dc;
     if (tl_downlink_out_config(s, p, &dc, err, cap) != 0)
@@ -99,6 +106,8 @@ int tl_downlink_out_make(const tl_scenario *s, const tl_product *p, tl_dl_result
     tl_status st = tl_downlink_init(d, &dc);
     if (st == TL_OK)
         st = tl_frame_builder_init(fb, s->dl_frame_len, (uint16_t)s->dl_scid, (uint8_t)s->dl_vcid, frame_sink, &ctx);
+    for (uint32_t b = 0; st == TL_OK && b < nblocks; b++)
+        st = tl_downlink_sk(d, &blocks[b], packet_sink, &ctx);
     if (st == TL_OK)
         st = tl_downlink_product(d, p, 1, packet_sink, &ctx);
     if (st == TL_OK)
@@ -120,6 +129,8 @@ int tl_downlink_out_make(const tl_scenario *s, const tl_product *p, tl_dl_result
     res->octets_science = d->stats.octets_science;
     res->octets_hk = d->stats.octets_hk;
     res->octets_raw = d->stats.octets_raw;
+    res->packets_sk = d->stats.packets_sk;
+    res->octets_sk = d->stats.octets_sk;
     res->frames = fb->frames;
     res->octets_frames = ctx.frames.len;
     if (packets != NULL) {
@@ -152,12 +163,12 @@ static int write_bytes(FILE *f, void *ctx)
     return fwrite(b->p, 1, b->n, f) == b->n ? 0 : -1;
 }
 
-int tl_downlink_out_write(const char *dir, const tl_scenario *s, const tl_product *p, tl_dl_result *res, char *err,
-                          size_t cap)
+int tl_downlink_out_write(const char *dir, const tl_scenario *s, const tl_product *p, const tl_sk_block *blocks,
+                          uint32_t nblocks, tl_dl_result *res, char *err, size_t cap)
 {
     uint8_t *pk = NULL, *fr = NULL;
     size_t pl = 0, fl = 0;
-    if (tl_downlink_out_make(s, p, res, &pk, &pl, &fr, &fl, err, cap) != 0)
+    if (tl_downlink_out_make_all(s, p, blocks, nblocks, res, &pk, &pl, &fr, &fl, err, cap) != 0)
         return -1;
     char path[4400];
     bytes b = { pk, pl };

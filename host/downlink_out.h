@@ -26,6 +26,8 @@ typedef struct tl_dl_result {
     uint64_t octets_raw;                /* 8 octets per channel value: the size without compression */
     uint32_t frames;                    /* transfer frames, the last one completed with idle data */
     uint64_t octets_frames;             /* frames with their sync markers */
+    uint32_t packets_sk;                /* spectral kurtosis packets */
+    uint64_t octets_sk;
 } tl_dl_result;
 
 /* The downlink configuration of s, the epoch at 0 s. The configuration id
@@ -40,9 +42,16 @@ int tl_downlink_out_config(const tl_scenario *s, const tl_product *p, tl_downlin
 int tl_downlink_out_make(const tl_scenario *s, const tl_product *p, tl_dl_result *res, uint8_t **packets,
                          size_t *packets_len, uint8_t **frames, size_t *frames_len, char *err, size_t cap);
 
-/* tl_downlink_out_make, then DIR/packets.bin and DIR/frames.bin. Returns 0
- * or -1 with one line in err naming the file. */
-int tl_downlink_out_write(const char *dir, const tl_scenario *s, const tl_product *p, tl_dl_result *res, char *err,
-                          size_t cap);
+/* The same with the integration's spectral kurtosis blocks (nblocks of
+ * them, may be 0): their packets come first, in block order, as the
+ * firmware sends them while the integration runs. */
+int tl_downlink_out_make_all(const tl_scenario *s, const tl_product *p, const tl_sk_block *blocks, uint32_t nblocks,
+                             tl_dl_result *res, uint8_t **packets, size_t *packets_len, uint8_t **frames,
+                             size_t *frames_len, char *err, size_t cap);
+
+/* tl_downlink_out_make_all, then DIR/packets.bin and DIR/frames.bin.
+ * Returns 0 or -1 with one line in err naming the file. */
+int tl_downlink_out_write(const char *dir, const tl_scenario *s, const tl_product *p, const tl_sk_block *blocks,
+                          uint32_t nblocks, tl_dl_result *res, char *err, size_t cap);
 
 #endif

@@ -92,16 +92,47 @@ void tl_report_print(FILE *out, const char *command, const tl_scenario *s, const
                         cr->fit[i].chi2 / cr->fit[i].dof);
         }
     }
+    if (r->sk.done) {
+        const tl_sk_report *k = &r->sk;
+        const double chw = tl_scenario_channel_hz(s);
+        fprintf(out, "spectral kurtosis (blocks of M = %u values of N = %u antenna spectra, %u blocks, %u spectra "
+                     "dropped at the end; false alarm %.2g: SK outside [%.4f, %.4f]; a channel is masked when flagged "
+                     "in >= %u blocks):\n",
+                k->m, k->n, k->nblocks, k->dropped, k->false_alarm, k->lo, k->hi, k->mask_blocks);
+        for (uint32_t i = 0; i < k->inputs; i++)
+            fprintf(out, "  input %u: flagged %llu low + %llu high of %llu channel-blocks (%.3f%%; Gaussian noise "
+                         "%.3f%%); in the science band %.3f%%\n",
+                    i, (unsigned long long)k->flagged_low[i], (unsigned long long)k->flagged_high[i],
+                    (unsigned long long)k->values[i],
+                    k->values[i] ? 100.0 * (double)(k->flagged_low[i] + k->flagged_high[i]) / (double)k->values[i] : 0.0,
+                    100.0 * k->false_alarm,
+                    k->band_values[i] ? 100.0 * (double)k->band_flagged[i] / (double)k->band_values[i] : 0.0);
+        fprintf(out, "  masked channels: %u (%u in the science band, left out of the calibration)", k->masked,
+                k->masked_in_band);
+        unsigned shown = 0;
+        for (uint32_t ch = 0; ch < k->channels && shown < 8u; ch++) {
+            if (!k->mask[ch] || (ch > 0u && k->mask[ch - 1u]))
+                continue;
+            uint32_t e = ch;
+            while (e + 1u < k->channels && k->mask[e + 1u])
+                e++;
+            fprintf(out, "%s%.3f-%.3f MHz", shown ? ", " : ": ", ch * chw / 1e6, e * chw / 1e6);
+            shown++;
+        }
+        fprintf(out, "%s\n", shown == 8u ? ", ..." : "");
+    }
     if (r->dl.done) {
         const tl_dl_result *d = &r->dl;
-        const uint64_t pk = d->octets_science + d->octets_hk;
+        const uint64_t pk = d->octets_science + d->octets_hk + d->octets_sk;
         fprintf(out, "downlink (%s%s, packets <= %u octets, frames of %u + 4 octets, config id 0x%08X):\n",
                 s->dl_encoding ? "noise-bounded" : "lossless", s->dl_transpose ? ", bit planes" : ", byte shuffle",
                 s->dl_max_packet, s->dl_frame_len, d->config_id);
-        fprintf(out, "  %u science packets (%llu octets) + %u housekeeping (%llu octets) = %llu octets; sums "
-                     "uncompressed %llu octets, compression x%.2f\n",
-                d->packets_science, (unsigned long long)d->octets_science, d->packets_hk,
-                (unsigned long long)d->octets_hk, (unsigned long long)pk, (unsigned long long)d->octets_raw,
+        fprintf(out, "  %u science packets (%llu octets) + %u housekeeping (%llu octets)", d->packets_science,
+                (unsigned long long)d->octets_science, d->packets_hk, (unsigned long long)d->octets_hk);
+        if (d->packets_sk)
+            fprintf(out, " + %u spectral kurtosis (%llu octets)", d->packets_sk, (unsigned long long)d->octets_sk);
+        fprintf(out, " = %llu octets; sums uncompressed %llu octets, compression x%.2f\n", (unsigned long long)pk,
+                (unsigned long long)d->octets_raw,
                 d->octets_science ? (double)d->octets_raw / (double)d->octets_science : 0.0);
         fprintf(out, "  %u transfer frames, %llu octets on the link (%.1f%% frame overhead and fill)\n", d->frames,
                 (unsigned long long)d->octets_frames,
@@ -209,6 +240,37 @@ int tl_report_write_json(const char *path, const tl_scenario *s, const tl_run_re
         json_object_set_new(cal, "inputs", ins);
         json_object_set_new(root, "calibration", cal);
     }
+    if (r->sk.done) {
+        const tl_sk_report *k = &r->sk;
+        json_t *o = json_object();
+        json_object_set_new(o, "block_values", json_integer(k->m));
+        json_object_set_new(o, "spectra_per_value", json_integer(k->n));
+        json_object_set_new(o, "blocks", json_integer(k->nblocks));
+        json_object_set_new(o, "dropped_spectra", json_integer(k->dropped));
+        json_object_set_new(o, "false_alarm", json_real(k->false_alarm));
+        json_object_set_new(o, "lower_threshold", json_real(k->lo));
+        json_object_set_new(o, "upper_threshold", json_real(k->hi));
+        json_object_set_new(o, "mask_min_blocks", json_integer(k->mask_blocks));
+        json_t *ins = json_array();
+        for (uint32_t i = 0; i < k->inputs; i++)
+            json_array_append_new(ins, json_pack("{s:I, s:I, s:I, s:I, s:I}", "flagged_low",
+                                                 (json_int_t)k->flagged_low[i], "flagged_high",
+                                                 (json_int_t)k->flagged_high[i], "channel_blocks",
+                                                 (json_int_t)k->values[i], "band_flagged",
+                                                 (json_int_t)k->band_flagged[i], "band_channel_blocks",
+                                                 (json_int_t)k->band_values[i]));
+        json_object_set_new(o, "inputs", ins);
+        json_t *chs = json_array(), *mhz = json_array();
+        const double chw = tl_scenario_channel_hz(s);
+        for (uint32_t ch = 0; ch < k->channels; ch++)
+            if (k->mask[ch]) {
+                json_array_append_new(chs, json_integer(ch));
+                json_array_append_new(mhz, json_real(ch * chw / 1e6));
+            }
+        json_object_set_new(o, "masked_channels", chs);
+        json_object_set_new(o, "masked_mhz", mhz);
+        json_object_set_new(root, "spectral_kurtosis", o);
+    }
     if (r->dl.done) {
         const tl_dl_result *d = &r->dl;
         json_t *dl = json_object();
@@ -221,6 +283,8 @@ int tl_report_write_json(const char *path, const tl_scenario *s, const tl_run_re
         json_object_set_new(dl, "octets_uncompressed", json_integer((json_int_t)d->octets_raw));
         json_object_set_new(dl, "compression",
                             json_real(d->octets_science ? (double)d->octets_raw / (double)d->octets_science : 0.0));
+        json_object_set_new(dl, "packets_kurtosis", json_integer((json_int_t)d->packets_sk));
+        json_object_set_new(dl, "octets_kurtosis", json_integer((json_int_t)d->octets_sk));
         json_object_set_new(dl, "frames", json_integer((json_int_t)d->frames));
         json_object_set_new(dl, "octets_frames", json_integer((json_int_t)d->octets_frames));
         json_object_set_new(dl, "packet_file", json_string("packets.bin"));

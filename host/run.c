@@ -8,6 +8,7 @@
 #include <time.h>
 #include "sky_model.h"
 #include "sky_noise.h"
+#include "spectral_kurtosis.h"
 #include "taps_design.h"
 
 static void sky_source(void *state, int16_t *in0, int16_t *in1, size_t n)
@@ -21,6 +22,11 @@ static void sky_state(void *state, uint32_t sw_state)
 }
 
 int tl_run_calibrate(const tl_scenario *s, const tl_product *p, tl_cal_report *c)
+{
+    return tl_run_calibrate_masked(s, p, NULL, c);
+}
+
+int tl_run_calibrate_masked(const tl_scenario *s, const tl_product *p, const uint8_t *mask, tl_cal_report *c)
 {
     memset(c, 0, sizeof *c);
     tl_taps *t = malloc(sizeof *t);
@@ -45,23 +51,37 @@ int tl_run_calibrate(const tl_scenario *s, const tl_product *p, tl_cal_report *c
                                            tl_sky_temperature_state(&s->sky, 1, f),
                                            tl_sky_temperature_state(&s->sky, 2, f), t_load, t_ns);
     }
-    c->channels = hi - lo;
-    static double fk[TL_MAX_CHANNELS];
+    if (mask != NULL)
+        for (uint32_t i = 0; i < p->inputs; i++)
+            for (uint32_t k = 0; k < p->channels; k++)
+                if (mask[k]) {
+                    c->t_ant[i][k] = NAN;
+                    c->sigma[i][k] = NAN;
+                }
+    static double fk[TL_MAX_CHANNELS], ty[TL_MAX_CHANNELS], ts[TL_MAX_CHANNELS];
+    uint32_t used = 0;
+    for (uint32_t k = lo; k < hi; k++)
+        used += mask == NULL || !mask[k];
+    c->channels = used;
     for (uint32_t i = 0; i < p->inputs; i++) {
         double chi2 = 0.0;
+        uint32_t n = 0;
         for (uint32_t k = lo; k < hi; k++) {
+            if (mask != NULL && mask[k])
+                continue;
             const double z = (c->t_ant[i][k] - c->t_model[k]) / c->sigma[i][k];
             chi2 += z * z;
             c->beyond3[i] += fabs(z) > 3.0;
+            fk[n] = k * df;
+            ty[n] = c->t_ant[i][k];
+            ts[n] = c->sigma[i][k];
+            n++;
         }
-        c->chi2_red[i] = chi2 / c->channels;
-        if (s->sky.trough_depth_k > 0.0) {
-            for (uint32_t k = lo; k < hi; k++)
-                fk[k - lo] = k * df;
+        c->chi2_red[i] = n ? chi2 / n : NAN;
+        if (s->sky.trough_depth_k > 0.0 && n > 0u) {
             const double w = s->sky.trough_width_hz;
-            tl_fit_trough(fk, &c->t_ant[i][lo], &c->sigma[i][lo], hi - lo, 0.5 * (fk[0] + fk[hi - lo - 1u]),
-                          s->fit_order, s->sky.trough_flatness, fk[0] + w / 2.0, fk[hi - lo - 1u] - w / 2.0, 0.5 * w,
-                          2.0 * w, &c->fit[i]);
+            tl_fit_trough(fk, ty, ts, n, 0.5 * (fk[0] + fk[n - 1u]), s->fit_order, s->sky.trough_flatness,
+                          fk[0] + w / 2.0, fk[n - 1u] - w / 2.0, 0.5 * w, 2.0 * w, &c->fit[i]);
         }
     }
     c->done = 1;
@@ -102,7 +122,22 @@ static int scenario_taps_image(const tl_scenario *s, uint8_t **img, size_t *img_
     return 0;
 }
 
+/* The chain alone on s's sky over one integration; spectral kurtosis
+ * blocks (when s asks) into blocks[0 .. max_blocks-1]. */
+static tl_status run_chain(const tl_scenario *s, tl_product *p, tl_sk_block *blocks, uint32_t max_blocks,
+                           uint32_t *nblocks);
+
 tl_status tl_run_firmware(const tl_scenario *s, tl_product *p)
+{
+    if (s->cfg.sk_spectra == 0u)
+        return run_chain(s, p, NULL, 0, NULL);
+    tl_scenario q = *s; /* the product does not depend on the kurtosis sums */
+    q.cfg.sk_spectra = 0;
+    return run_chain(&q, p, NULL, 0, NULL);
+}
+
+static tl_status run_chain(const tl_scenario *s, tl_product *p, tl_sk_block *blocks, uint32_t max_blocks,
+                           uint32_t *nblocks)
 {
     uint8_t *img = NULL;
     size_t img_len = 0;
@@ -121,12 +156,20 @@ tl_status tl_run_firmware(const tl_scenario *s, tl_product *p)
         tl_config cfg = s->cfg;
         cfg.integration = s->spectra;
         st = tl_chain_init(c, &cfg, img, img_len);
+        if (nblocks != NULL)
+            *nblocks = 0;
         while (st == TL_OK && !tl_chain_ready(c)) {
             if (s->cfg.switch_steps > 0u)
                 tl_sky_set_state(sky, tl_chain_state(c));
             tl_sky_fill(sky, a, b, N);
             size_t used = 0;
             st = tl_chain_push(c, a, b, N, &used);
+            if (st == TL_OK && tl_chain_sk_ready(c)) {
+                if (blocks == NULL || *nblocks >= max_blocks)
+                    st = TL_E_SK;
+                else
+                    st = tl_chain_take_sk(c, &blocks[(*nblocks)++]);
+            }
         }
         if (st == TL_OK)
             st = tl_chain_take(c, p);
@@ -156,6 +199,7 @@ tl_status tl_run_with_source(const tl_scenario *s, tl_fid_source source, void (*
     su.taps_len = img_len;
     su.cfg = s->cfg;
     su.cfg.integration = s->spectra;
+    su.cfg.sk_spectra = 0; /* the fidelity blocks are shorter than an integration: kurtosis runs apart */
     su.progress = progress;
     su.progress_ctx = progress_ctx;
     su.window = s->window;
@@ -191,10 +235,123 @@ tl_status tl_run_scenario(const tl_scenario *s, tl_run_result *r, void (*progres
     tl_sky *sky = tl_sky_open(&sp);
     if (sky == NULL)
         return r->fid.status = TL_E_NULL;
-    const tl_status st = tl_run_with_source(s, sky_source, s->cfg.switch_steps > 0 ? sky_state : NULL, sky, r,
-                                            progress, progress_ctx);
+    tl_status st = tl_run_with_source(s, sky_source, s->cfg.switch_steps > 0 ? sky_state : NULL, sky, r,
+                                      progress, progress_ctx);
     r->generator_clips[0] = tl_sky_clipped(sky, 0);
     r->generator_clips[1] = tl_sky_clipped(sky, 1);
     tl_sky_close(sky);
+    if (st == TL_OK && s->cfg.sk_spectra > 0u) {
+        tl_product *p = malloc(sizeof *p);
+        st = p == NULL ? TL_E_NULL : tl_run_kurtosis(s, p, &r->sk);
+        /* the same samples through the same chain: the same product */
+        if (st == TL_OK && memcmp(p->auto_power, r->fid.product.auto_power, sizeof p->auto_power) != 0)
+            st = TL_E_FORMAT;
+        free(p);
+        if (st == TL_OK && r->cal.done &&
+            tl_run_calibrate_masked(s, &r->fid.product, r->sk.mask, &r->cal) != 0)
+            st = TL_E_SWITCH;
+        if (st == TL_OK) {
+            char why[512];
+            if (tl_downlink_out_make_all(s, &r->fid.product, r->sk.blocks, r->sk.nblocks, &r->dl, NULL, NULL, NULL,
+                                         NULL, why, sizeof why) != 0)
+                st = TL_E_ENCODING;
+        }
+    }
     return st;
+}
+
+void tl_run_release(tl_run_result *r)
+{
+    if (r == NULL)
+        return;
+    free(r->sk.blocks);
+    r->sk.blocks = NULL;
+    for (uint32_t i = 0; i < TL_MAX_INPUTS; i++) {
+        free(r->sk.flag_count[i]);
+        r->sk.flag_count[i] = NULL;
+    }
+}
+
+/* Smallest k with P(Binomial(n, p) >= k) <= 1e-3, at most n. */
+static uint32_t mask_count(uint32_t n, double p)
+{
+    double tail = 1.0, term = pow(1.0 - p, (double)n); /* P(X = 0) */
+    for (uint32_t k = 0; k < n; k++) {
+        tail -= term; /* now P(X >= k + 1) */
+        if (tail <= 1e-3)
+            return k + 1u;
+        term *= (double)(n - k) / (double)(k + 1u) * p / (1.0 - p);
+    }
+    return n;
+}
+
+tl_status tl_run_kurtosis(const tl_scenario *s, tl_product *p, tl_sk_report *sk)
+{
+    memset(sk, 0, sizeof *sk);
+    const uint32_t m = s->cfg.sk_spectra, nacc = s->cfg.sk_accumulate ? s->cfg.sk_accumulate : 1u;
+    const uint32_t max_blocks = s->spectra / (m ? m * nacc : 1u);
+    if (m == 0u || max_blocks == 0u)
+        return TL_E_SK;
+    sk->blocks = calloc(max_blocks, sizeof *sk->blocks);
+    for (uint32_t i = 0; i < s->cfg.inputs; i++)
+        sk->flag_count[i] = calloc(s->cfg.points / 2u, sizeof *sk->flag_count[i]);
+    if (sk->blocks == NULL || sk->flag_count[0] == NULL || (s->cfg.inputs == 2u && sk->flag_count[1] == NULL)) {
+        tl_run_result tmp;
+        tmp.sk = *sk;
+        tl_run_release(&tmp);
+        memset(sk, 0, sizeof *sk);
+        return TL_E_NULL;
+    }
+    const tl_status st = run_chain(s, p, sk->blocks, max_blocks, &sk->nblocks);
+    if (st != TL_OK) {
+        tl_run_result tmp;
+        tmp.sk = *sk;
+        tl_run_release(&tmp);
+        memset(sk, 0, sizeof *sk);
+        return st;
+    }
+    sk->m = m;
+    sk->inputs = s->cfg.inputs;
+    sk->channels = s->cfg.points / 2u;
+    sk->false_alarm = s->sk_false_alarm;
+    sk->dropped = p->sk_dropped;
+    sk->n = nacc;
+    if (tl_sk_thresholds(m, nacc, s->sk_false_alarm, &sk->lo, &sk->hi) != 0) {
+        tl_run_result tmp;
+        tmp.sk = *sk;
+        tl_run_release(&tmp);
+        memset(sk, 0, sizeof *sk);
+        return TL_E_SK;
+    }
+    sk->mask_blocks = mask_count(sk->nblocks, s->sk_false_alarm);
+    uint32_t lo, hi;
+    tl_scenario_band(s, &lo, &hi);
+    for (uint32_t b = 0; b < sk->nblocks; b++) {
+        const tl_sk_block *blk = &sk->blocks[b];
+        for (uint32_t i = 0; i < sk->inputs; i++)
+            for (uint32_t k = 1; k < sk->channels; k++) { /* channel 0 (DC) carries no noise-like power */
+                const double s1 = (double)blk->s1[i][k];
+                const double s2 = ldexp((double)blk->s2_hi[i][k], 64) + (double)blk->s2_lo[i][k];
+                const double v = tl_sk_estimate(s1, s2, m, nacc);
+                const int low = v < sk->lo, high = v > sk->hi;
+                sk->values[i]++;
+                sk->flagged_low[i] += (uint64_t)low;
+                sk->flagged_high[i] += (uint64_t)high;
+                sk->flag_count[i][k] += (uint32_t)(low || high);
+                if (k >= lo && k < hi) {
+                    sk->band_values[i]++;
+                    sk->band_flagged[i] += (uint64_t)(low || high);
+                }
+            }
+    }
+    for (uint32_t k = 0; k < sk->channels; k++) {
+        int masked = 0;
+        for (uint32_t i = 0; i < sk->inputs; i++)
+            masked |= sk->nblocks > 0u && sk->flag_count[i][k] >= sk->mask_blocks;
+        sk->mask[k] = (uint8_t)masked;
+        sk->masked += (uint32_t)masked;
+        sk->masked_in_band += (uint32_t)(masked && k >= lo && k < hi);
+    }
+    sk->done = 1;
+    return TL_OK;
 }

@@ -25,17 +25,53 @@ typedef struct tl_cal_report {
     double radiometer_factor;
 } tl_cal_report;
 
+/* Spectral kurtosis of a run ([flagging] sk_block > 0): the firmware's
+ * block sums, the ground's estimator (spectral_kurtosis.h) and the mask.
+ * A channel is masked when it is flagged (either tail) in at least
+ * mask_blocks of the blocks on some input: the smallest count that
+ * Gaussian noise reaches with probability at most 1e-3 (binomial, with the
+ * configured false-alarm rate), and never more than the blocks. */
+typedef struct tl_sk_report {
+    int done;
+    uint32_t m, n, nblocks, inputs, channels; /* M values of N spectra per block */
+    double false_alarm, lo, hi;       /* thresholds on SK */
+    uint32_t mask_blocks;
+    tl_sk_block *blocks;              /* nblocks, malloc'd (tl_run_release frees) */
+    uint32_t *flag_count[TL_MAX_INPUTS]; /* per channel: blocks flagged, malloc'd */
+    uint64_t flagged_low[TL_MAX_INPUTS], flagged_high[TL_MAX_INPUTS], values[TL_MAX_INPUTS];
+    uint64_t band_flagged[TL_MAX_INPUTS], band_values[TL_MAX_INPUTS]; /* in the science band */
+    uint8_t mask[TL_MAX_CHANNELS];    /* 1 = masked */
+    uint32_t masked, masked_in_band;
+    uint32_t dropped;                 /* spectra of blocks cut short */
+} tl_sk_report;
+
 typedef struct tl_run_result {
     tl_fid_result fid;
     uint64_t generator_clips[2];  /* samples the sky generator clipped, per input */
     double seconds;               /* wall time of the run */
     tl_cal_report cal;
     tl_dl_result dl;              /* the product's packets and frames (downlink_out.h) */
+    tl_sk_report sk;              /* spectral kurtosis, when the scenario asks */
 } tl_run_result;
+
+/* Free what a run allocated inside r (the kurtosis blocks); r itself stays. */
+void tl_run_release(tl_run_result *r);
+
+/* Spectral kurtosis of s on its own sky: the firmware chain alone over one
+ * integration with s->cfg.sk_spectra, every block taken, the estimator and
+ * flags per channel and block, the mask. *p receives the product (it is
+ * the run's product: the same samples through the same chain). Returns
+ * TL_OK or the first error; on error nothing stays allocated. */
+tl_status tl_run_kurtosis(const tl_scenario *s, tl_product *p, tl_sk_report *sk);
 
 /* Calibrate a switched product against the scenario's model (tl_run_scenario
  * calls it). Returns 0, or -1 when a state has no spectra. */
 int tl_run_calibrate(const tl_scenario *s, const tl_product *p, tl_cal_report *c);
+
+/* The same, leaving out channels with mask[k] != 0 (NULL: none): their
+ * calibrated temperature is NAN, and the chi-squared and the trough fit
+ * use the other channels. */
+int tl_run_calibrate_masked(const tl_scenario *s, const tl_product *p, const uint8_t *mask, tl_cal_report *c);
 
 /* Run s with any voltage source: the firmware chain, the references, the
  * fidelity figures, and the calibration when s switches. set_state (may be

@@ -12,6 +12,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "spectral_kurtosis.h"
 #include "taps_design.h"
 #include "tl_downlink.h"
 #include "tl_frame.h"
@@ -150,8 +151,10 @@ static const key_def keys[] = {
       "Excess noise temperature the noise source adds to the load." },
     { "fit", "foreground_order", K_U32, OFF(fit_order), 0, 1, 8, 1, NULL, 0, "",
       "Order of the log-polynomial foreground fitted under a trough." },
-    { "flagging", "sk_block", K_U32, OFF(cfg.sk_spectra), 0, 0, TL_SK_MAX_SPECTRA, 1, NULL, 0, "spectra",
-      "Spectral kurtosis: antenna spectra per block of on-board sums (0 = off, else 16 or more)." },
+    { "flagging", "sk_block", K_U32, OFF(cfg.sk_spectra), 0, 0, TL_SK_MAX_SPECTRA, 1, NULL, 0, "values",
+      "Spectral kurtosis: power values M per block of on-board sums (0 = off, else 16 or more)." },
+    { "flagging", "sk_accumulate", K_U32, OFF(cfg.sk_accumulate), 0, 1, TL_SK_MAX_ACCUMULATE, 1, NULL, 0, "spectra",
+      "Antenna spectra N summed into each value: a block spans M x N spectra (fewer blocks, slower interference only)." },
     { "flagging", "false_alarm", K_REAL, OFF(sk_false_alarm), 0, 1e-6, 0.2, 1, NULL, 0, "",
       "Probability that Gaussian noise is flagged in one channel and block (both tails together)." },
     { "downlink", "encoding", K_CHOICE, OFF(dl_encoding), 0, 0, 0, 1, encoding_names, 0, "",
@@ -882,9 +885,17 @@ static int check_relations(const tl_scenario *s, const char *path, const int *li
     if (s->cfg.sk_spectra != 0u && s->cfg.sk_spectra < TL_SK_MIN_SPECTRA)
         return fail_key(s, path, lines, "flagging", "sk_block", err, cap, "must be 0 (off) or at least %u spectra",
                         TL_SK_MIN_SPECTRA);
-    if (s->cfg.sk_spectra > s->spectra)
+    double sk_lo, sk_hi;
+    if (s->cfg.sk_spectra != 0u &&
+        tl_sk_thresholds(s->cfg.sk_spectra, s->cfg.sk_accumulate, s->sk_false_alarm, &sk_lo, &sk_hi) != 0)
         return fail_key(s, path, lines, "flagging", "sk_block", err, cap,
-                        "must be at most [integration] spectra = %u", s->spectra);
+                        "no flagging thresholds exist for M = %u values of N = %u spectra (N = 1 needs M >= 24; "
+                        "docs/spectral-kurtosis.md lists the limits)",
+                        s->cfg.sk_spectra, s->cfg.sk_accumulate);
+    if ((uint64_t)s->cfg.sk_spectra * s->cfg.sk_accumulate > s->spectra)
+        return fail_key(s, path, lines, "flagging", "sk_block", err, cap,
+                        "times sk_accumulate = %u must be at most [integration] spectra = %u", s->cfg.sk_accumulate,
+                        s->spectra);
     return check_sky_relations(s, path, lines, err, cap);
 }
 

@@ -143,6 +143,7 @@ static int cmd_run(int argc, char **argv)
     const tl_status rs = tl_run_scenario(&s, r, tl_run_progress_bar, &bar);
     if (rs != TL_OK) {
         fprintf(stderr, "tidelock run: scenario %s: %s (%s)\n", s.name, tl_status_text(rs), tl_status_name(rs));
+        tl_run_release(r);
         free(r);
         return EXIT_FAIL;
     }
@@ -150,12 +151,14 @@ static int cmd_run(int argc, char **argv)
         tl_report_print(stdout, "run", &s, r);
     if (tl_run_outputs_write(dir, &s, r, err, sizeof err) != 0) {
         fprintf(stderr, "tidelock run: %s\n", err);
+        tl_run_release(r);
         free(r);
         return EXIT_FAIL;
     }
     if (!quiet)
         tl_run_outputs_say(stdout, dir, &s);
     const int fails = tl_fidelity_verdict(&r->fid, NULL, 0);
+    tl_run_release(r);
     free(r);
     return fails ? EXIT_FAIL : EXIT_OK;
 }

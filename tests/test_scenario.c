@@ -276,6 +276,7 @@ static void modified(tl_scenario *s)
     s->dl_apid_hk = 18;
     s->dl_apid_sk = 19;
     s->cfg.sk_spectra = 64;
+    s->cfg.sk_accumulate = 2;
     s->sk_false_alarm = 0.01;
     s->dl_scid = 1023;
     s->dl_vcid = 7;
@@ -303,8 +304,8 @@ static void test_round_trip_every_key(void **state)
     assert_int_equal(tl_scenario_check(&mod, NULL, err, sizeof err), 0);
     char *text = written(&mod);
     char *deftext = written(&def);
-    /* every one of the 54 key lines differs from the default file */
-    assert_int_equal(differing_lines(text, deftext), 54);
+    /* every one of the 55 key lines differs from the default file */
+    assert_int_equal(differing_lines(text, deftext), 55);
     expect_loads(text, &back);
     assert_scenario_equal(&back, &mod, "round trip");
     free(text);
@@ -650,8 +651,11 @@ static const case_ cases[] = {
       ":2: [downlink] apid_kurtosis = '258': must differ from apid_science = 257 and apid_housekeeping = 258" },
     { "relation: SK block below 16", "[flagging]\nsk_block = 15\n",
       ":2: [flagging] sk_block = '15': must be 0 (off) or at least 16 spectra" },
+    { "relation: no SK thresholds", "[flagging]\nsk_block = 64\nsk_accumulate = 14\n",
+      ":2: [flagging] sk_block = '64': no flagging thresholds exist for M = 64 values of N = 14 spectra (N = 1 needs "
+      "M >= 24; docs/spectral-kurtosis.md lists the limits)" },
     { "relation: SK block above the integration", "[flagging]\nsk_block = 8192\n",
-      ":2: [flagging] sk_block = '8192': must be at most [integration] spectra = 4096" },
+      ":2: [flagging] sk_block = '8192': times sk_accumulate = 1 must be at most [integration] spectra = 4096" },
     { "range: packet below the downlink minimum", "[downlink]\nmax_packet = 511\n",
       ":2: [downlink] max_packet = '511': must be an integer from 512 to 4095 octets" },
     { "relation: extrapolate_to below spectra", "[fidelity]\nextrapolate_to = 4095\n",
