@@ -116,6 +116,10 @@ static void add_stats(tl_stats *t, const tl_stats *s)
         tl_count_add(&t->pfb_sat[i], s->pfb_sat[i]);
         for (unsigned st = 0; st <= TL_MAX_FFT_STAGES; st++)
             tl_count_add(&t->fft_sat[i][st], s->fft_sat[i][st]);
+        for (unsigned b = 0; b < TL_ADC_HIST_BINS; b++)
+            tl_count_add(&t->adc_hist[i][b], s->adc_hist[i][b]);
+        t->adc_sumsq[i] = (UINT64_MAX - t->adc_sumsq[i] < s->adc_sumsq[i]) ? UINT64_MAX
+                                                                            : t->adc_sumsq[i] + s->adc_sumsq[i];
     }
     for (unsigned i = 0; i < 4; i++)
         tl_count_add(&t->acc_sat[i], s->acc_sat[i]);
