@@ -485,7 +485,7 @@ static tl_status try_sk(tl_downlink *d, const void *ctx, uint32_t first, uint32_
     tl_put_be16(u + TL_DL_SK_OFF_CHANNELS, (uint16_t)b->channels);
     tl_put_be16(u + TL_DL_SK_OFF_FIRST, (uint16_t)first);
     tl_put_be16(u + TL_DL_SK_OFF_COUNT, (uint16_t)n);
-    tl_put_be16(u + TL_DL_SK_OFF_RESERVED, 0u);
+    tl_put_be16(u + TL_DL_SK_OFF_ACCUMULATE, (uint16_t)(b->accumulate - 1u));
     /* S1 of the n channels, then S2 >> s2_shift, as one payload */
     for (uint32_t k = 0; k < n; k++) {
         d->ref[k] = b->s1[c->input][first + k];
@@ -507,6 +507,8 @@ tl_status tl_downlink_sk(tl_downlink *d, const tl_sk_block *b, tl_downlink_sink 
         return TL_E_NOT_INIT;
     if (b->channels == 0u || b->channels > TL_MAX_CHANNELS || b->inputs < 1u || b->inputs > TL_MAX_INPUTS)
         return TL_E_POINTS;
+    if (b->accumulate < 1u || b->accumulate > TL_SK_MAX_ACCUMULATE)
+        return TL_E_SK;
     if (b->first_frame > UINT64_MAX / (2u * (uint64_t)b->channels))
         return TL_E_TIME_RANGE;
     tl_cuc t;
@@ -563,6 +565,7 @@ tl_status tl_downlink_parse_sk(const uint8_t *user, size_t len, tl_dl_sk *v)
     r.channels = tl_get_be16(user + TL_DL_SK_OFF_CHANNELS);
     r.first = tl_get_be16(user + TL_DL_SK_OFF_FIRST);
     r.count = tl_get_be16(user + TL_DL_SK_OFF_COUNT);
+    r.accumulate = (uint32_t)tl_get_be16(user + TL_DL_SK_OFF_ACCUMULATE) + 1u;
     if (r.version != TL_DL_VERSION || r.kind != TL_DL_KIND_SK || r.input >= TL_MAX_INPUTS || r.s2_shift > 64u ||
         r.spectra < TL_SK_MIN_SPECTRA || r.spectra > TL_SK_MAX_SPECTRA || r.channels == 0u || r.channels > 32768u ||
         r.count == 0u || r.count > TL_DL_SK_MAX_CHANNELS || (uint32_t)r.first + (uint32_t)r.count > (uint32_t)r.channels)

@@ -136,7 +136,7 @@
 #define TL_DL_SK_OFF_CHANNELS 24u
 #define TL_DL_SK_OFF_FIRST 26u
 #define TL_DL_SK_OFF_COUNT 28u
-#define TL_DL_SK_OFF_RESERVED 30u
+#define TL_DL_SK_OFF_ACCUMULATE 30u /* N - 1: spectra summed into each value, minus one */
 #define TL_DL_SK_HEADER_OCTETS 32u
 #define TL_DL_SK_F_SAT 0x01u      /* some S1 or S2 of the block saturated */
 #define TL_DL_SK_MAX_CHANNELS (TL_ENCODE_MAX_CHANNELS / 2u) /* S1 and S2 share one payload */
@@ -222,8 +222,8 @@ tl_status tl_downlink_product(tl_downlink *d, const tl_product *p, int taps_ok, 
  * C-1 in contiguous ranges, each decodable alone. Header (32 octets,
  * big-endian): version, kind 3, mode, input, arithmetic spec, detection
  * shift, S2 shift s, flags (TL_DL_SK_F_SAT), configuration id, integration
- * index, block number, spectra per block M, channels C (2), first channel
- * (2), count n (2, at most TL_DL_SK_MAX_CHANNELS), reserved (2). Payload:
+ * index, block number, values per block M, channels C (2), first channel
+ * (2), count n (2, at most TL_DL_SK_MAX_CHANNELS), N - 1 (2). Payload:
  * one lossless tl_encode payload of 2n uint64 values: S1 of the n channels,
  * then S2 / 2^s (s chosen per input as the bit length of the largest high
  * word, so every value fits 64 bits; s = 0 keeps S2 exact). The packet time
@@ -275,7 +275,8 @@ tl_status tl_downlink_parse_hk(const uint8_t *user, size_t len, tl_dl_hk *h);
 
 typedef struct tl_dl_sk {
     uint8_t version, kind, mode, input, arith, det_shift, s2_shift, flags;
-    uint32_t config_id, index, block, spectra;
+    uint32_t config_id, index, block, spectra; /* spectra: M values per block */
+    uint32_t accumulate;                       /* N spectra per value, 1 .. 65536 */
     uint16_t channels, first, count;
     const uint8_t *payload;
     size_t payload_len;

@@ -156,7 +156,7 @@ static int on_product(void *user, const tl_product *p, const tl_ground_product_i
             snprintf(why_buf, sizeof why_buf, "not calibrated: %u channels, the scenario has %u", p->channels,
                      o->s->cfg.points / 2u);
             why = why_buf;
-        } else if (tl_run_calibrate(o->s, p, o->cal) != 0)
+        } else if (tl_run_calibrate_masked(o->s, p, in->sk_mask, o->cal) != 0)
             why = "not calibrated: a switch state has no spectra";
         else if (tl_run_outputs_calibrated(folder, o->s, p, o->cal, err, sizeof err) != 0) {
             snprintf(note->note, sizeof note->note, "%.500s", err);
@@ -258,6 +258,8 @@ int tl_cmd_decode(int argc, char **argv)
     gc.vcid = (uint16_t)s.dl_vcid;
     gc.apid_science = (uint16_t)s.dl_apid_science;
     gc.apid_hk = (uint16_t)s.dl_apid_hk;
+    gc.apid_sk = (uint16_t)s.dl_apid_sk;
+    gc.sk_false_alarm = s.sk_false_alarm;
     decode_out out;
     memset(&out, 0, sizeof out);
     out.dir = dir;

@@ -11,6 +11,7 @@
 
 #include "atomic_file.h"
 #include "spectral_decode.h"
+#include "spectral_kurtosis.h"
 #include "tl_bytes.h"
 #include "tl_crc16.h"
 #include "tl_frame.h"
@@ -83,6 +84,12 @@ typedef struct product {
     uint32_t covered_n[3][4];
     uint64_t cover[3][4][TL_GROUND_COVER_WORDS];
     tl_product *p;
+    /* spectral kurtosis blocks */
+    uint32_t sk_channels, sk_m, sk_n, sk_blocks;
+    double sk_lo, sk_hi;
+    uint64_t sk_flagged[2], sk_values[2];
+    uint32_t *sk_count[2];     /* per channel: blocks flagged (malloc'd) */
+    uint8_t *sk_mask;          /* filled at finalize */
 } product;
 
 typedef struct key {
@@ -165,6 +172,8 @@ void tl_ground_config_default(tl_ground_config *c)
     c->vcid = TL_GROUND_ANY;
     c->apid_science = 0x101u;
     c->apid_hk = 0x102u;
+    c->apid_sk = 0x103u;
+    c->sk_false_alarm = 0.0027;
     c->in_flight = TL_GROUND_DEFAULT_IN_FLIGHT;
     c->log_limit = TL_GROUND_DEFAULT_LOG_LIMIT;
 }
@@ -204,9 +213,12 @@ tl_ground *tl_ground_open(const tl_ground_config *cfg, tl_ground_product_fn fn, 
         return NULL;
     }
     if (cfg->apid_science > TL_PACKET_APID_MAX || cfg->apid_hk > TL_PACKET_APID_MAX ||
-        cfg->apid_science == cfg->apid_hk) {
-        snprintf(err, cap, "APIDs science %u and housekeeping %u must differ and lie in 0 to %u", cfg->apid_science,
-                 cfg->apid_hk, TL_PACKET_APID_MAX);
+        cfg->apid_sk > TL_PACKET_APID_MAX || cfg->apid_science == cfg->apid_hk || cfg->apid_sk == cfg->apid_science ||
+        cfg->apid_sk == cfg->apid_hk || !(cfg->sk_false_alarm > 0.0 && cfg->sk_false_alarm <= 0.5)) {
+        snprintf(err, cap,
+                 "APIDs science %u, housekeeping %u and kurtosis %u must differ and lie in 0 to %u, and the false-alarm "
+                 "rate in (0, 0.5]",
+                 cfg->apid_science, cfg->apid_hk, cfg->apid_sk, TL_PACKET_APID_MAX);
         return NULL;
     }
     if (cfg->in_flight < 1u || cfg->in_flight > TL_GROUND_MAX_IN_FLIGHT) {
@@ -398,6 +410,24 @@ char *tl_ground_product_json(const tl_ground_product_info *in)
     json_object_set_new(o, "science_packets", json_integer(in->science_packets));
     json_object_set_new(o, "time_s", json_real((double)in->time.coarse + (double)in->time.fine / 65536.0));
     json_object_set_new(o, "missing_channels", json_u64(in->missing_total));
+    if (in->sk_blocks > 0u) {
+        json_t *k = json_object(), *masked = json_array();
+        json_object_set_new(k, "blocks", json_integer(in->sk_blocks));
+        json_object_set_new(k, "values_per_block", json_integer(in->sk_m));
+        json_object_set_new(k, "spectra_per_value", json_integer(in->sk_n));
+        json_object_set_new(k, "lower_threshold", json_real(in->sk_lo));
+        json_object_set_new(k, "upper_threshold", isfinite(in->sk_hi) ? json_real(in->sk_hi) : json_null());
+        json_object_set_new(k, "flagged", json_pack("[I, I]", (json_int_t)in->sk_flagged[0], (json_int_t)in->sk_flagged[1]));
+        json_object_set_new(k, "channel_blocks", json_pack("[I, I]", (json_int_t)in->sk_values[0],
+                                                           (json_int_t)in->sk_values[1]));
+        json_object_set_new(k, "mask_min_blocks", json_integer(in->sk_mask_blocks));
+        if (in->sk_mask != NULL)
+            for (uint32_t c = 0; c < in->channels; c++)
+                if (in->sk_mask[c])
+                    json_array_append_new(masked, json_integer(c));
+        json_object_set_new(k, "masked_channels", masked);
+        json_object_set_new(o, "kurtosis", k);
+    }
     json_t *miss = json_array();
     for (uint32_t s = 0; s < in->states && s < 3u; s++)
         for (uint32_t q = 0; q < in->quantities && q < 4u; q++) {
@@ -513,6 +543,27 @@ static void finalize(tl_ground *g, uint32_t i, uint32_t done)
                 if (!covered(pr->cover[s][q], k))
                     fl[k] = (uint8_t)(fl[k] | TL_GROUND_FLAG_MISSING);
         }
+    if (pr->sk_blocks > 0u && pr->sk_mask != NULL) {
+        in.sk_blocks = pr->sk_blocks;
+        in.sk_m = pr->sk_m;
+        in.sk_n = pr->sk_n;
+        in.sk_lo = pr->sk_lo;
+        in.sk_hi = pr->sk_hi;
+        in.sk_mask_blocks = tl_sk_mask_blocks(pr->sk_blocks, g->cfg.sk_false_alarm);
+        for (uint32_t inp = 0; inp < 2u; inp++) {
+            in.sk_flagged[inp] = pr->sk_flagged[inp];
+            in.sk_values[inp] = pr->sk_values[inp];
+        }
+        for (uint32_t k = 0; k < pr->sk_channels; k++) {
+            int m = 0;
+            for (uint32_t inp = 0; inp < 2u; inp++)
+                m |= pr->sk_count[inp] != NULL && pr->sk_count[inp][k] >= in.sk_mask_blocks;
+            pr->sk_mask[k] = (uint8_t)m;
+            in.sk_masked += (uint32_t)m;
+        }
+        /* the mask must match the spectrum it applies to */
+        in.sk_mask = (pr->channels == 0u || pr->channels == pr->sk_channels) ? pr->sk_mask : NULL;
+    }
     in.complete = pr->has_hk && pr->channels > 0u && in.missing_total == 0u;
     in.done = in.complete ? TL_GROUND_DONE_COMPLETE : done;
     /* the product as tl_chain_take would have filled it, as far as the packets tell */
@@ -577,6 +628,9 @@ static void finalize(tl_ground *g, uint32_t i, uint32_t done)
         keep(g, r);
     }
     ring_add(g, pr->config_id, pr->index);
+    free(pr->sk_count[0]);
+    free(pr->sk_count[1]);
+    free(pr->sk_mask);
     free(p);
     free(pr);
 }
@@ -727,6 +781,67 @@ static uint8_t take_science(tl_ground *g, const tl_packet_view *pv, tl_ground_pa
         fl[c] = (uint8_t)(sat ? (fl[c] | satbit) : (fl[c] & (uint8_t)~satbit));
     }
     check_complete(g, pr);
+    return TL_GP_OK;
+}
+
+/* A spectral kurtosis packet: S1 and S2 of n channels of one input and
+ * block; each channel's SK against the thresholds, counted per product. */
+static uint8_t take_sk(tl_ground *g, const tl_packet_view *pv, tl_ground_packet_entry *e)
+{
+    tl_dl_sk h;
+    if (tl_downlink_parse_sk(pv->user, pv->user_len, &h) != TL_OK)
+        return TL_GP_BAD_USER_DATA;
+    if (h.channels > TL_MAX_CHANNELS)
+        return TL_GP_TOO_MANY_CHANNELS;
+    static uint64_t v[2u * TL_DL_SK_MAX_CHANNELS];
+    tl_spectral_header sh;
+    if (tl_spectral_decode_u64(h.payload, h.payload_len, v, NULL, 2u * TL_DL_SK_MAX_CHANNELS, &sh) != TL_OK ||
+        sh.count != 2u * h.count)
+        return TL_GP_BAD_PAYLOAD;
+    e->kind = TL_DL_KIND_SK;
+    e->index = h.index;
+    e->config_id = h.config_id;
+    e->state = h.input; /* kurtosis packets: the input */
+    e->first = h.first;
+    e->channels = h.count;
+    product *pr = NULL;
+    const int r = product_for(g, h.config_id, h.index, &pr);
+    if (r == LATE)
+        return TL_GP_LATE;
+    if (r != FOUND)
+        return TL_GP_INCONSISTENT;
+    const uint32_t n_acc = h.accumulate;
+    if (pr->sk_channels == 0u) {
+        pr->sk_channels = h.channels;
+        pr->sk_m = h.spectra;
+        pr->sk_n = n_acc;
+        for (uint32_t i = 0; i < 2u; i++)
+            pr->sk_count[i] = calloc(h.channels, sizeof *pr->sk_count[i]);
+        pr->sk_mask = calloc(h.channels, 1);
+        if (pr->sk_count[0] == NULL || pr->sk_count[1] == NULL || pr->sk_mask == NULL) {
+            fail(g, "out of memory (kurtosis)");
+            return TL_GP_INCONSISTENT;
+        }
+        if (tl_sk_thresholds(pr->sk_m, pr->sk_n, g->cfg.sk_false_alarm, &pr->sk_lo, &pr->sk_hi) != 0) {
+            pr->sk_lo = 0.0;
+            pr->sk_hi = INFINITY; /* no thresholds for this M: nothing is flagged */
+        }
+    } else if (h.channels != pr->sk_channels || h.spectra != pr->sk_m || n_acc != pr->sk_n) {
+        return TL_GP_INCONSISTENT;
+    }
+    if (h.block + 1u > pr->sk_blocks)
+        pr->sk_blocks = h.block + 1u;
+    for (uint32_t k = 0; k < h.count; k++) {
+        const uint32_t ch = h.first + k;
+        if (ch == 0u)
+            continue; /* DC carries no noise-like power (as tl_run_kurtosis) */
+        const double s1 = (double)v[k], s2 = ldexp((double)v[h.count + k], h.s2_shift);
+        const double sk = tl_sk_estimate(s1, s2, pr->sk_m, pr->sk_n);
+        const int flagged = sk < pr->sk_lo || sk > pr->sk_hi;
+        pr->sk_values[h.input]++;
+        pr->sk_flagged[h.input] += (uint64_t)flagged;
+        pr->sk_count[h.input][ch] += (uint32_t)flagged;
+    }
     return TL_GP_OK;
 }
 
@@ -906,7 +1021,9 @@ static void take_packet(tl_ground *g, const tl_packet_view *pv, const uint8_t *b
     }
     if (st != TL_GP_DUPLICATE) {
         uint8_t use;
-        if (pv->apid != g->cfg.apid_science && pv->apid != g->cfg.apid_hk)
+        if (pv->apid == g->cfg.apid_sk && pv->user_len >= 2u && pv->user[TL_DL_OFF_KIND] == TL_DL_KIND_SK)
+            use = take_sk(g, pv, &e);
+        else if (pv->apid != g->cfg.apid_science && pv->apid != g->cfg.apid_hk)
             use = TL_GP_OTHER_APID;
         else if (pv->user_len >= 2u && pv->user[TL_DL_OFF_KIND] == TL_DL_KIND_SPECTRUM)
             use = take_science(g, pv, &e);

@@ -105,12 +105,15 @@ typedef struct tl_ground_config {
     uint16_t vcid;           /* frames mode: 0 .. 7 or TL_GROUND_ANY */
     uint16_t apid_science;   /* 0 .. 2046 */
     uint16_t apid_hk;        /* 0 .. 2046, not apid_science */
+    uint16_t apid_sk;        /* spectral kurtosis blocks: 0 .. 2046, not the other two */
+    double sk_false_alarm;   /* flagging rate per channel and block, (0, 0.5] (spectral_kurtosis.h) */
     uint32_t in_flight;      /* 1 .. TL_GROUND_MAX_IN_FLIGHT */
     uint32_t log_limit;      /* entries kept per log list (frames, packets, products,
                                 housekeeping), 0 .. 10^7; the rest are counted */
 } tl_ground_config;
 
-/* Frames of 1024 octets, any SCID/VCID, APIDs 0x101 / 0x102,
+/* Frames of 1024 octets, any SCID/VCID, APIDs 0x101 / 0x102 / 0x103,
+ * false-alarm rate 0.0027,
  * TL_GROUND_DEFAULT_IN_FLIGHT, TL_GROUND_DEFAULT_LOG_LIMIT. */
 void tl_ground_config_default(tl_ground_config *c);
 
@@ -182,6 +185,14 @@ typedef struct tl_ground_product_info {
     tl_cuc time;                    /* of its first packet */
     const tl_dl_hk *hk;             /* NULL without housekeeping */
     const uint64_t *covered[3][4];  /* bit k%64 of word k/64 set: channel k arrived */
+    /* spectral kurtosis blocks of this integration (none: sk_blocks 0) */
+    uint32_t sk_blocks;             /* blocks seen (highest block number + 1) */
+    uint32_t sk_m, sk_n;            /* M values of N spectra per block */
+    double sk_lo, sk_hi;            /* thresholds for cfg.sk_false_alarm */
+    uint64_t sk_flagged[2], sk_values[2]; /* channel-blocks flagged / decoded per input */
+    uint32_t sk_mask_blocks;        /* tl_sk_mask_blocks(sk_blocks, rate) */
+    const uint8_t *sk_mask;         /* per channel, 1 = masked (flagged in >= sk_mask_blocks on an input) */
+    uint32_t sk_masked;
 } tl_ground_product_info;
 
 /* What the receiver made of a product, kept in the log beside it. */

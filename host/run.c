@@ -272,19 +272,6 @@ void tl_run_release(tl_run_result *r)
     }
 }
 
-/* Smallest k with P(Binomial(n, p) >= k) <= 1e-3, at most n. */
-static uint32_t mask_count(uint32_t n, double p)
-{
-    double tail = 1.0, term = pow(1.0 - p, (double)n); /* P(X = 0) */
-    for (uint32_t k = 0; k < n; k++) {
-        tail -= term; /* now P(X >= k + 1) */
-        if (tail <= 1e-3)
-            return k + 1u;
-        term *= (double)(n - k) / (double)(k + 1u) * p / (1.0 - p);
-    }
-    return n;
-}
-
 tl_status tl_run_kurtosis(const tl_scenario *s, tl_product *p, tl_sk_report *sk)
 {
     memset(sk, 0, sizeof *sk);
@@ -323,7 +310,7 @@ tl_status tl_run_kurtosis(const tl_scenario *s, tl_product *p, tl_sk_report *sk)
         memset(sk, 0, sizeof *sk);
         return TL_E_SK;
     }
-    sk->mask_blocks = mask_count(sk->nblocks, s->sk_false_alarm);
+    sk->mask_blocks = tl_sk_mask_blocks(sk->nblocks, s->sk_false_alarm);
     uint32_t lo, hi;
     tl_scenario_band(s, &lo, &hi);
     for (uint32_t b = 0; b < sk->nblocks; b++) {

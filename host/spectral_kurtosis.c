@@ -503,3 +503,15 @@ void tl_sk_flag(const double *s1, const double *s2, uint32_t channels, uint32_t 
         flag_out[c] = isnan(sk) ? TL_SK_INVALID : sk < lo ? TL_SK_LOW : sk > hi ? TL_SK_HIGH : TL_SK_INSIDE;
     }
 }
+
+uint32_t tl_sk_mask_blocks(uint32_t blocks, double false_alarm)
+{
+    double tail = 1.0, term = pow(1.0 - false_alarm, (double)blocks); /* P(X = 0) */
+    for (uint32_t k = 0; k < blocks; k++) {
+        tail -= term; /* now P(X >= k + 1) */
+        if (tail <= 1e-3)
+            return k + 1u;
+        term *= (double)(blocks - k) / (double)(k + 1u) * false_alarm / (1.0 - false_alarm);
+    }
+    return blocks;
+}

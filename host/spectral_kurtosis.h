@@ -113,4 +113,9 @@ int tl_sk_thresholds_pearson3(uint32_t m, uint32_t n, double false_alarm, double
 void tl_sk_flag(const double *s1, const double *s2, uint32_t channels, uint32_t m, uint32_t n, double lo, double hi,
                 double *sk_out, uint8_t *flag_out);
 
+/* The number of flagged blocks that masks a channel: the smallest k >= 1
+ * with P(Binomial(blocks, false_alarm) >= k) <= 1e-3, at most blocks (so a
+ * single false alarm never masks a channel of a long run). */
+uint32_t tl_sk_mask_blocks(uint32_t blocks, double false_alarm);
+
 #endif

@@ -494,6 +494,7 @@ static void test_sk_packets(void **state)
         b->index = 3;
         b->block = 5;
         b->spectra = 256;
+        b->accumulate = big ? 65536u : 1u;
         b->inputs = 2;
         b->channels = 4096;
         b->det_shift = 8;
@@ -521,6 +522,7 @@ static void test_sk_packets(void **state)
             next[h.input] += h.count;
             assert_int_equal(h.block, 5);
             assert_int_equal(h.spectra, 256);
+            assert_int_equal(h.accumulate, big ? 65536u : 1u);
             assert_int_equal(tl_spectral_decode_u64(h.payload, h.payload_len, v, NULL, TL_ENCODE_MAX_CHANNELS, NULL),
                              TL_OK);
             for (uint32_t k = 0; k < h.count; k++) {

@@ -16,6 +16,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "ground.h"
 #include "run.h"
 #include "spectral_kurtosis.h"
 
@@ -186,6 +187,25 @@ static void test_burst_flagged_high(void **state)
     free(p);
 }
 
+typedef struct mask_seen {
+    int calls;
+    uint32_t blocks, masked;
+    uint8_t mask[TL_MAX_CHANNELS];
+} mask_seen;
+
+static int keep_mask(void *user, const tl_product *p, const tl_ground_product_info *in, tl_ground_product_note *note)
+{
+    (void)p;
+    (void)note;
+    mask_seen *m = user;
+    m->calls++;
+    m->blocks = in->sk_blocks;
+    m->masked = in->sk_masked;
+    if (in->sk_mask != NULL)
+        memcpy(m->mask, in->sk_mask, in->channels);
+    return 0;
+}
+
 /* The run: masked channels leave the calibration (NAN, not counted), the
  * summary lists them, and the downlink carries one set of packets per
  * block. */
@@ -218,6 +238,31 @@ static void test_run_masks_and_sends(void **state)
     assert_true(r->dl.packets_sk >= 2u * 2u * r->sk.nblocks);
     printf("    run: %u blocks, %u channels masked (%u in band), %u kurtosis packets (%llu octets)\n", r->sk.nblocks,
            r->sk.masked, r->sk.masked_in_band, r->dl.packets_sk, (unsigned long long)r->dl.octets_sk);
+    /* the ground decoder, from the frames alone, finds the same blocks and
+     * the same mask */
+    uint8_t *frames = NULL;
+    size_t flen = 0;
+    char err[512];
+    tl_dl_result dl;
+    assert_int_equal(tl_downlink_out_make_all(&s, &r->fid.product, r->sk.blocks, r->sk.nblocks, &dl, NULL, NULL,
+                                              &frames, &flen, err, sizeof err),
+                     0);
+    tl_ground_config gc;
+    tl_ground_config_default(&gc);
+    gc.frame_len = s.dl_frame_len;
+    gc.sk_false_alarm = s.sk_false_alarm;
+    mask_seen *seen = calloc(1, sizeof *seen);
+    tl_ground *g = tl_ground_open(&gc, keep_mask, seen, err, sizeof err);
+    assert_non_null(g);
+    assert_int_equal(tl_ground_feed(g, frames, flen, err, sizeof err), 0);
+    assert_int_equal(tl_ground_finish(g, err, sizeof err), 0);
+    tl_ground_close(g);
+    assert_int_equal(seen->calls, 1);
+    assert_int_equal(seen->blocks, r->sk.nblocks);
+    assert_int_equal(seen->masked, r->sk.masked);
+    assert_memory_equal(seen->mask, r->sk.mask, s.cfg.points / 2u);
+    free(seen);
+    free(frames);
     tl_run_release(r);
     free(r);
 }
