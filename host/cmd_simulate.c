@@ -137,11 +137,7 @@ int tl_cmd_simulate(int argc, char **argv)
         base[bl - sl] = '\0';
 
     /* the generator exactly as `tidelock run` sets it up (run.c) */
-    tl_sky_params sp = s.sky;
-    sp.rms_fs *= pow(10.0, s.drive_db / 20.0);
-    sp.adc_bits = s.cfg.adc_bits;
-    sp.inputs = s.cfg.inputs;
-    tl_sky *sky = tl_sky_open(&sp);
+    tl_sky *sky = tl_scenario_sky(&s);
     char *text = scenario_text(&s);
     if (sky == NULL || text == NULL) {
         fprintf(stderr, "tidelock simulate: %s: cannot start the noise generator (out of memory?)\n",

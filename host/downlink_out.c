@@ -6,50 +6,25 @@
 #include <string.h>
 
 #include "atomic_file.h"
+#include "bytebuf.h"
 #include "tl_downlink.h"
 #include "tl_frame.h"
 
-typedef struct growbuf {
-    uint8_t *p;
-    size_t len, cap;
-    int failed;
-} growbuf;
-
-static void put(growbuf *b, const uint8_t *d, size_t n)
-{
-    if (b->failed)
-        return;
-    if (b->len + n > b->cap) {
-        size_t cap = b->cap ? b->cap : 65536u;
-        while (cap < b->len + n)
-            cap *= 2u;
-        uint8_t *q = realloc(b->p, cap);
-        if (q == NULL) {
-            b->failed = 1;
-            return;
-        }
-        b->p = q;
-        b->cap = cap;
-    }
-    memcpy(b->p + b->len, d, n);
-    b->len += n;
-}
-
 typedef struct sink_ctx {
-    growbuf packets, frames;
+    tl_bytebuf packets, frames;
     tl_frame_builder *fb;
     tl_status frame_st;
 } sink_ctx;
 
 static void frame_sink(void *user, const uint8_t *wire, size_t len)
 {
-    put(&((sink_ctx *)user)->frames, wire, len);
+    tl_bytebuf_put(&((sink_ctx *)user)->frames, wire, len);
 }
 
 static void packet_sink(void *user, const uint8_t *pkt, size_t len)
 {
     sink_ctx *c = user;
-    put(&c->packets, pkt, len);
+    tl_bytebuf_put(&c->packets, pkt, len);
     const tl_status st = tl_frame_put_packet(c->fb, pkt, len);
     if (st != TL_OK && c->frame_st == TL_OK)
         c->frame_st = st;

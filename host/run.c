@@ -100,28 +100,6 @@ void tl_run_progress_bar(void *ctx, uint32_t done, uint32_t total)
     fflush(stderr);
 }
 
-/* The firmware's built-in table when the scenario asks for it (*img NULL),
- * else one designed from the scenario as a CRC-checked image (malloc'd). */
-static int scenario_taps_image(const tl_scenario *s, uint8_t **img, size_t *img_len)
-{
-    *img = NULL;
-    *img_len = 0;
-    if (s->cfg.points == tl_taps_default_points && s->cfg.taps == tl_taps_default_taps &&
-        s->window == tl_taps_default_window)
-        return 0;
-    tl_taps *t = malloc(sizeof *t);
-    *img = malloc(TL_TAPS_IMAGE_BYTES(s->cfg.taps, s->cfg.points));
-    if (t == NULL || *img == NULL || tl_taps_design(s->window, s->cfg.taps, s->cfg.points, t, NULL) != 0 ||
-        tl_taps_write_image(t, *img, TL_TAPS_IMAGE_BYTES(s->cfg.taps, s->cfg.points), img_len) != TL_OK) {
-        free(t);
-        free(*img);
-        *img = NULL;
-        return -1;
-    }
-    free(t);
-    return 0;
-}
-
 /* The chain alone on s's sky over one integration; spectral kurtosis
  * blocks (when s asks) into blocks[0 .. max_blocks-1]. */
 static tl_status run_chain(const tl_scenario *s, tl_product *p, tl_sk_block *blocks, uint32_t max_blocks,
@@ -141,13 +119,9 @@ static tl_status run_chain(const tl_scenario *s, tl_product *p, tl_sk_block *blo
 {
     uint8_t *img = NULL;
     size_t img_len = 0;
-    if (scenario_taps_image(s, &img, &img_len) != 0)
+    if (tl_scenario_taps_image(s, 0, &img, &img_len) != 0)
         return TL_E_TABLE_FORMAT;
-    tl_sky_params sp = s->sky;
-    sp.rms_fs *= pow(10.0, s->drive_db / 20.0);
-    sp.adc_bits = s->cfg.adc_bits;
-    sp.inputs = s->cfg.inputs;
-    tl_sky *sky = tl_sky_open(&sp);
+    tl_sky *sky = tl_scenario_sky(s);
     tl_chain *c = malloc(sizeof *c);
     const uint32_t N = s->cfg.points;
     int16_t *a = malloc(sizeof *a * N), *b = malloc(sizeof *b * N);
@@ -191,7 +165,7 @@ tl_status tl_run_with_source(const tl_scenario *s, tl_fid_source source, void (*
     clock_gettime(CLOCK_MONOTONIC, &t0);
     uint8_t *img = NULL;
     size_t img_len = 0;
-    if (scenario_taps_image(s, &img, &img_len) != 0)
+    if (tl_scenario_taps_image(s, 0, &img, &img_len) != 0)
         return r->fid.status = TL_E_TABLE_FORMAT;
     tl_fid_setup su;
     memset(&su, 0, sizeof su);
@@ -228,11 +202,7 @@ tl_status tl_run_scenario(const tl_scenario *s, tl_run_result *r, void (*progres
                           void *progress_ctx)
 {
     memset(r, 0, sizeof *r);
-    tl_sky_params sp = s->sky;
-    sp.rms_fs *= pow(10.0, s->drive_db / 20.0);
-    sp.adc_bits = s->cfg.adc_bits;
-    sp.inputs = s->cfg.inputs;
-    tl_sky *sky = tl_sky_open(&sp);
+    tl_sky *sky = tl_scenario_sky(s);
     if (sky == NULL)
         return r->fid.status = TL_E_NULL;
     tl_status st = tl_run_with_source(s, sky_source, s->cfg.switch_steps > 0 ? sky_state : NULL, sky, r,

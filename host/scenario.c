@@ -282,6 +282,35 @@ void tl_scenario_default(tl_scenario *s)
     sync_derived(s);
 }
 
+tl_sky *tl_scenario_sky(const tl_scenario *s)
+{
+    tl_sky_params sp = s->sky;
+    sp.rms_fs *= pow(10.0, s->drive_db / 20.0);
+    sp.adc_bits = s->cfg.adc_bits;
+    sp.inputs = s->cfg.inputs;
+    return tl_sky_open(&sp);
+}
+
+int tl_scenario_taps_image(const tl_scenario *s, int always, uint8_t **img, size_t *img_len)
+{
+    *img = NULL;
+    *img_len = 0;
+    if (!always && s->cfg.points == tl_taps_default_points && s->cfg.taps == tl_taps_default_taps &&
+        s->window == tl_taps_default_window)
+        return 0;
+    tl_taps *t = malloc(sizeof *t);
+    *img = malloc(TL_TAPS_IMAGE_BYTES(s->cfg.taps, s->cfg.points));
+    if (t == NULL || *img == NULL || tl_taps_design(s->window, s->cfg.taps, s->cfg.points, t, NULL) != 0 ||
+        tl_taps_write_image(t, *img, TL_TAPS_IMAGE_BYTES(s->cfg.taps, s->cfg.points), img_len) != TL_OK) {
+        free(t);
+        free(*img);
+        *img = NULL;
+        return -1;
+    }
+    free(t);
+    return 0;
+}
+
 double tl_scenario_channel_hz(const tl_scenario *s)
 {
     return s->sky.sample_rate_hz / s->cfg.points;

@@ -94,6 +94,17 @@ int tl_scenario_write(FILE *out, const tl_scenario *s);
 void tl_scenario_band(const tl_scenario *s, uint32_t *lo, uint32_t *hi);
 
 /* Channel width in Hz. */
+/* The generator of s's voltages as every command sets it up: s->sky with
+ * the drive applied to the RMS, the ADC bits and inputs of the
+ * configuration. NULL on bad parameters or out of memory; tl_sky_close it. */
+tl_sky *tl_scenario_sky(const tl_scenario *s);
+
+/* The coefficient table image of s, CRC-checked as the firmware loads it:
+ * designed from s's window, taps and points (malloc'd into *img). When
+ * always is 0 and s asks for the firmware's built-in table, *img is NULL
+ * (the chain's default). Returns 0, or -1 when the design fails. */
+int tl_scenario_taps_image(const tl_scenario *s, int always, uint8_t **img, size_t *img_len);
+
 double tl_scenario_channel_hz(const tl_scenario *s);
 
 #endif
