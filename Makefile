@@ -151,4 +151,11 @@ clean: ## remove build products
 	rm -rf $(BUILD)
 
 help: ## list targets
-	@grep -E '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | sed -E 's/:.*## /\t/' | expand -t 10
+	@grep -hE '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | sed -E 's/:.*## /\t/' | expand -t 10
+
+# ---- cross-target builds and golden vectors ----------------------------------------
+# The vector runner for the host, the Cortex-M7 (QEMU) and big-endian PowerPC
+# (qemu-ppc), the Cortex-M7 memory budget and image checks, `make cross`.
+# tests/test_cross.c (in every suite) compares all vectors on all three.
+include hil/targets.mk
+# ---- end of cross-target block ------------------------------------------------------

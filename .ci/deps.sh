@@ -2,7 +2,10 @@
 # deps.sh - install the Debian packages tidelock needs, only those missing.
 # Uses sudo when not root. --no-install-recommends keeps the install small.
 set -euo pipefail
-pkgs=(gcc make pkg-config libfftw3-dev libcmocka-dev libjansson-dev libinih-dev liblz4-dev python3-numpy)
+pkgs=(gcc make pkg-config libfftw3-dev libcmocka-dev libjansson-dev libinih-dev liblz4-dev python3-numpy
+      # cross-target builds (hil/targets.mk): Cortex-M7 bare metal under QEMU, big-endian PowerPC under qemu-ppc
+      gcc-arm-none-eabi libnewlib-arm-none-eabi qemu-system-arm gcc-powerpc-linux-gnu libc6-dev-powerpc-cross
+      qemu-user)
 missing=()
 for p in "${pkgs[@]}"; do
     dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed" || missing+=("$p")

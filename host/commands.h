@@ -30,4 +30,10 @@ int tl_cmd_decode(int argc, char **argv);
 /* tidelock budget [SCENARIO.ini] [-o DIR] [-q] */
 int tl_cmd_budget(int argc, char **argv);
 
+/* tidelock vectors make|check [DIR] [-q] */
+int tl_cmd_vectors(int argc, char **argv);
+
+/* tidelock hil --target T [--timeout S] [--retries N] [--junit FILE] [--allow-hardware] VECTOR... */
+int tl_cmd_hil(int argc, char **argv);
+
 #endif

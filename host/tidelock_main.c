@@ -39,6 +39,8 @@ static const char *const main_help =
     "  decode    rebuild the spectra from recorded transfer frames or space packets, with a log\n"
     "  budget    the downlink budget: volumes, link time, storage and their margins\n"
     "  tables    write a filterbank coefficient table image, or the committed table sources\n"
+    "  vectors   make or check the golden vectors (input and expected frame stream)\n"
+    "  hil       run golden vectors on a target over the link protocol and compare\n"
     "  help      help on a command (tidelock help run)\n"
     "\n"
     "exit status: 0 success, 1 failure (bad scenario file, I/O error, fidelity FAIL), 2 usage\n"
@@ -303,6 +305,10 @@ int main(int argc, char **argv)
             return tl_cmd_budget(2, (char *[]){ argv[2], "--help", NULL });
         if (strcmp(topic, "decode") == 0)
             return tl_cmd_decode(2, (char *[]){ argv[2], "--help", NULL });
+        if (strcmp(topic, "vectors") == 0)
+            return tl_cmd_vectors(2, (char *[]){ argv[2], "--help", NULL });
+        if (strcmp(topic, "hil") == 0)
+            return tl_cmd_hil(2, (char *[]){ argv[2], "--help", NULL });
         fputs(strcmp(topic, "run") == 0        ? run_help
               : strcmp(topic, "scenario") == 0 ? scenario_help
               : strcmp(topic, "tables") == 0   ? tables_help
@@ -324,9 +330,13 @@ int main(int argc, char **argv)
         return tl_cmd_budget(argc - 1, argv + 1);
     if (strcmp(cmd, "tables") == 0)
         return cmd_tables(argc - 1, argv + 1);
+    if (strcmp(cmd, "vectors") == 0)
+        return tl_cmd_vectors(argc - 1, argv + 1);
+    if (strcmp(cmd, "hil") == 0)
+        return tl_cmd_hil(argc - 1, argv + 1);
     fprintf(stderr,
             "tidelock: unknown command '%s' (commands: run, scenario, simulate, replay, decode, budget, tables, "
-            "help; "
+            "vectors, hil, help; "
             "see tidelock --help)\n",
             cmd);
     return EXIT_USAGE;
