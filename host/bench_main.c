@@ -1,25 +1,38 @@
 /*
  * bench_main.c - `make bench`: speed and memory, one table and one JSON.
  *
- * Figures, all measured in this one run on this machine:
+ * Figures, all measured in this one run on this machine (each timing the
+ * median of several runs, with min and max):
  *   synthesis   the sky simulator's Msamples/s (default scenario, 2 inputs)
- *   chain       the fixed-point firmware chain (filterbank, FFT, detection,
- *               integration) in Msamples/s per input on one core, beside
- *               the FFTW double reference chain run on the same samples
- *               in the same run, and their ratio, for several channel counts
+ *   chain       for 1024, 4096 and 8192 channels, 4 taps, 1 input: the fixed
+ *               chain (tl_chain_push) in Msamples/s on one core beside the
+ *               FFTW double reference chain on the same samples, and their
+ *               ratio; ns/sample by stage, each stage function called directly
+ *               in a loop on the same data (tl_pfb_commit, tl_fft_execute,
+ *               tl_detect_power, tl_integrate_power); the FFT stage against
+ *               the straightforward radix-2 int32 FFT of bench_radix2.c (speed
+ *               ratio, instruction ratio, and both SQNRs against FFTW double)
+ *   callgrind   instructions per sample by stage, the baseline and the whole
+ *               chain: this program re-runs itself (--callgrind-workload
+ *               CHANNELS, a fixed 16-frame workload) under valgrind's
+ *               callgrind, twice, and reads each loop's inclusive Ir from
+ *               callgrind_annotate; both runs are printed (they must agree)
  *   encoder     the downlink's lossless encoding (delta, zigzag, bit planes,
  *               our LZ4) in MB/s of 64-bit sums, its LZ4 stage against
  *               liblz4's LZ4_compress_default on the same transposed bytes
  *               (speed and size), and the ground's payload decoder
  *   replay      a recording of about --replay-gib GiB (default 2) simulated
  *               to a temporary folder and replayed through `tidelock
- *               replay`: wall time, Msamples/s, peak resident memory (the
- *               streaming bound), then deleted; 0 skips it.
+ *               replay`: wall time, Msample/s, peak resident memory (the
+ *               streaming bound); then the firmware chain alone through
+ *               `replay --threads 1` and `--threads 2` (scaling, identity of
+ *               the spectra files, peak RSS); then deleted; 0 skips it.
  * Timings are never pass/fail: they depend on the machine. Only ratios
  * against a reference measured in the same run are meant to be compared
  * between machines.
  *
  * usage: tl-bench [--json PATH] [--replay-gib X] [--tidelock PATH] [--tmp DIR]
+ *        tl-bench --callgrind-workload CHANNELS   (what callgrind runs)
  */
 #include <errno.h>
 #include <fcntl.h>
@@ -37,7 +50,11 @@
 #include <jansson.h>
 #include <lz4.h>
 
+#include <fftw3.h>
+
+#include "bench_radix2.h"
 #include "reference.h"
+#include "replay_threads.h"
 #include "run.h"
 #include "spectral_decode.h"
 #include "tl_encode.h"
@@ -91,45 +108,89 @@ static double bench_synthesis(json_t *root)
     return rate;
 }
 
-/* ---- fixed chain against the FFTW reference --------------------------------- */
+/* ---- statistics of repeated timings -------------------------------------------- */
 
-static void bench_chain(json_t *arr, uint32_t channels)
+#define BENCH_REPS 5 /* every timed figure: median of 5 runs, with min and max */
+
+typedef struct stat3 {
+    double med, min, max;
+} stat3;
+
+static int cmp_double(const void *a, const void *b)
 {
-    const uint32_t points = 2u * channels, taps = 4u;
-    tl_taps *t = xmalloc(sizeof *t);
-    if (tl_taps_design(TL_WINDOW_HANN, taps, points, t, NULL) != 0) {
+    const double x = *(const double *)a, y = *(const double *)b;
+    return (x > y) - (x < y);
+}
+
+/* v[0 .. n-1] sorted in place; n odd */
+static stat3 stat_of(double *v, int n)
+{
+    qsort(v, (size_t)n, sizeof *v, cmp_double);
+    stat3 s = { v[n / 2], v[0], v[n - 1] };
+    return s;
+}
+
+static json_t *json_stat(stat3 s)
+{
+    json_t *o = json_object();
+    json_object_set_new(o, "median", json_real(s.med));
+    json_object_set_new(o, "min", json_real(s.min));
+    json_object_set_new(o, "max", json_real(s.max));
+    return o;
+}
+
+/* ---- the chain and its stages: shared set-up ----------------------------------- */
+
+typedef struct chain_setup {
+    uint32_t channels, points, taps;
+    tl_taps *t;
+    uint8_t *img;
+    size_t img_len;
+    tl_config cfg;
+} chain_setup;
+
+static void setup_chain(chain_setup *cs, uint32_t channels)
+{
+    cs->channels = channels;
+    cs->points = 2u * channels;
+    cs->taps = 4u;
+    cs->t = xmalloc(sizeof *cs->t);
+    if (tl_taps_design(TL_WINDOW_HANN, cs->taps, cs->points, cs->t, NULL) != 0) {
         fprintf(stderr, "tl-bench: taps for %u channels\n", channels);
         exit(1);
     }
-    const size_t img_cap = TL_TAPS_IMAGE_BYTES(taps, points);
-    uint8_t *img = xmalloc(img_cap);
-    size_t img_len = 0;
-    if (tl_taps_write_image(t, img, img_cap, &img_len) != TL_OK) {
+    const size_t img_cap = TL_TAPS_IMAGE_BYTES(cs->taps, cs->points);
+    cs->img = xmalloc(img_cap);
+    if (tl_taps_write_image(cs->t, cs->img, img_cap, &cs->img_len) != TL_OK) {
         fprintf(stderr, "tl-bench: table image for %u channels\n", channels);
         exit(1);
     }
-    tl_config cfg;
-    tl_config_default(&cfg);
-    cfg.points = points;
-    cfg.taps = taps;
-    cfg.inputs = 1u;
-    cfg.integration = 1u << 20; /* never finishes during the bench */
+    tl_config_default(&cs->cfg);
+    cs->cfg.points = cs->points;
+    cs->cfg.taps = cs->taps;
+    cs->cfg.inputs = 1u;
+    cs->cfg.integration = 1u << 20; /* never finishes during the bench */
+}
+
+static void free_setup(chain_setup *cs)
+{
+    free(cs->img);
+    free(cs->t);
+}
+
+static tl_chain *open_chain(const chain_setup *cs)
+{
     tl_chain *c = xmalloc(sizeof *c);
-    if (tl_chain_init(c, &cfg, img, img_len) != TL_OK) {
-        fprintf(stderr, "tl-bench: chain init for %u channels\n", channels);
+    if (tl_chain_init(c, &cs->cfg, cs->img, cs->img_len) != TL_OK) {
+        fprintf(stderr, "tl-bench: chain init for %u channels\n", cs->channels);
         exit(1);
     }
-    double *coef = xmalloc(sizeof(double) * taps * points);
-    for (size_t n = 0; n < (size_t)taps * points; n++)
-        coef[n] = t->coef[n];
-    tl_ref *ref = tl_ref_open(coef, taps, points, t->shift, 1u, c->fft.total_shift, tl_config_det_shift(&cfg));
-    if (ref == NULL) {
-        fprintf(stderr, "tl-bench: reference for %u channels\n", channels);
-        exit(1);
-    }
-    /* Gaussian-like samples at 1/8 of full scale: the data do not change
-     * the fixed chain's work, only the reference's denormal-free path */
-    const size_t frames = (size_t)((1u << 24) / points), n = frames * points;
+    return c;
+}
+
+/* Gaussian-like samples at about 1/7 of full scale (sum of 4 uniforms) */
+static int16_t *make_samples(size_t n)
+{
     int16_t *x = xmalloc(n * sizeof *x);
     uint64_t st = 0x9E3779B97F4A7C15u;
     for (size_t i = 0; i < n; i++) {
@@ -140,45 +201,434 @@ static void bench_chain(json_t *arr, uint32_t channels)
             st ^= st << 17;
             v += (int)(st >> 52) - 2048;
         }
-        v *= 2; /* sum of 4 uniforms: RMS about 2365 x 2, 1/7 of full scale */
-        x[i] = (int16_t)v;
+        x[i] = (int16_t)(v * 2);
     }
-    size_t used = 0;
-    double best_fix = INFINITY, best_ref = INFINITY;
-    for (int rep = 0; rep < 3; rep++) {
-        double t0 = now_s();
-        if (tl_chain_push(c, x, NULL, n, &used) != TL_OK || used != n) {
-            fprintf(stderr, "tl-bench: chain push for %u channels\n", channels);
+    return x;
+}
+
+/* The stages, each over `frames` frames, called directly as the chain calls
+ * them. External and noipa so that callgrind reports each loop under its own
+ * name (inclusive of the stage function it calls). */
+typedef struct stage_data {
+    uint32_t points, channels, frames;
+    unsigned det_shift;
+    tl_pfb *pfb;
+    tl_fft *fft;
+    tl_integrator *it;
+    bench_radix2 r2;
+    const int16_t *x; /* frames x points samples */
+    int32_t *y;       /* frames x points: filterbank output */
+    int32_t *X;       /* frames x points: FFT output */
+    int32_t *X2;      /* frames x points: baseline FFT output */
+    uint64_t *P;      /* frames x channels: detected power */
+    uint32_t sat, fft_sat[TL_MAX_FFT_STAGES + 1u];
+} stage_data;
+
+__attribute__((noipa)) void bench_stage_pfb(stage_data *d);
+__attribute__((noipa)) void bench_stage_fft(stage_data *d);
+__attribute__((noipa)) void bench_stage_detect(stage_data *d);
+__attribute__((noipa)) void bench_stage_integrate(stage_data *d);
+__attribute__((noipa)) void bench_stage_radix2(stage_data *d);
+__attribute__((noipa)) void bench_stage_chain(tl_chain *c, const int16_t *x, size_t n);
+
+void bench_stage_pfb(stage_data *d)
+{
+    const size_t N = d->points;
+    for (uint32_t f = 0; f < d->frames; f++) {
+        memcpy(tl_pfb_next_frame(d->pfb), d->x + f * N, N * sizeof *d->x);
+        if (!tl_pfb_commit(d->pfb, d->y + f * N, &d->sat)) {
+            fprintf(stderr, "tl-bench: the filterbank was not primed\n");
             exit(1);
         }
-        double dt = now_s() - t0;
-        if (dt < best_fix)
-            best_fix = dt;
+    }
+}
+
+void bench_stage_fft(stage_data *d)
+{
+    const size_t N = d->points;
+    for (uint32_t f = 0; f < d->frames; f++)
+        tl_fft_execute(d->fft, d->y + f * N, d->X + f * N, d->fft_sat);
+}
+
+void bench_stage_detect(stage_data *d)
+{
+    const size_t N = d->points;
+    for (uint32_t f = 0; f < d->frames; f++)
+        tl_detect_power(d->X + f * N, d->channels, d->det_shift, TL_ROUND_HALF_EVEN, d->P + f * (size_t)d->channels);
+}
+
+void bench_stage_integrate(stage_data *d)
+{
+    for (uint32_t f = 0; f < d->frames; f++)
+        tl_integrate_power(d->it, 0u, d->P + f * (size_t)d->channels);
+}
+
+void bench_stage_radix2(stage_data *d)
+{
+    const size_t N = d->points;
+    for (uint32_t f = 0; f < d->frames; f++)
+        bench_radix2_execute(&d->r2, d->y + f * N, d->X2 + f * N);
+}
+
+void bench_stage_chain(tl_chain *c, const int16_t *x, size_t n)
+{
+    size_t used = 0;
+    if (tl_chain_push(c, x, NULL, n, &used) != TL_OK || used != n) {
+        fprintf(stderr, "tl-bench: chain push\n");
+        exit(1);
+    }
+}
+
+static void open_stages(stage_data *d, const chain_setup *cs, const int16_t *x, uint32_t frames)
+{
+    memset(d, 0, sizeof *d);
+    d->points = cs->points;
+    d->channels = cs->channels;
+    d->frames = frames;
+    d->det_shift = (unsigned)tl_config_det_shift(&cs->cfg);
+    d->x = x;
+    d->pfb = xmalloc(sizeof *d->pfb);
+    d->fft = xmalloc(sizeof *d->fft);
+    d->it = xmalloc(sizeof *d->it);
+    if (tl_pfb_init(d->pfb, cs->t, TL_ROUND_HALF_EVEN) != TL_OK ||
+        tl_fft_init(d->fft, cs->points, TL_FFT_SCALE_AUTO, TL_ROUND_HALF_EVEN) != TL_OK ||
+        bench_radix2_init(&d->r2, cs->points) != 0) {
+        fprintf(stderr, "tl-bench: stage init for %u channels\n", cs->channels);
+        exit(1);
+    }
+    tl_integrate_reset(d->it, cs->channels);
+    /* prime the filterbank with taps - 1 frames so that every timed frame gives output */
+    int32_t *scratch = xmalloc(sizeof *scratch * cs->points);
+    for (uint32_t f = 0; f + 1u < cs->taps; f++) {
+        memcpy(tl_pfb_next_frame(d->pfb), x + (size_t)f * cs->points, cs->points * sizeof *x);
+        (void)tl_pfb_commit(d->pfb, scratch, &d->sat);
+    }
+    free(scratch);
+    const size_t n = (size_t)frames * cs->points;
+    d->y = xmalloc(n * sizeof *d->y);
+    d->X = xmalloc(n * sizeof *d->X);
+    d->X2 = xmalloc(n * sizeof *d->X2);
+    d->P = xmalloc((size_t)frames * cs->channels * sizeof *d->P);
+}
+
+static void close_stages(stage_data *d)
+{
+    bench_radix2_free(&d->r2);
+    free(d->pfb);
+    free(d->fft);
+    free(d->it);
+    free(d->y);
+    free(d->X);
+    free(d->X2);
+    free(d->P);
+}
+
+/* SQNR in dB of X (scaled 2^-shift against the exact DFT) over `frames`
+ * frames of y, against FFTW's double r2c transform of the same y. */
+static double sqnr_db(const int32_t *y, const int32_t *X, uint32_t points, uint32_t frames, uint32_t shift)
+{
+    double *in = fftw_malloc(sizeof(double) * points);
+    fftw_complex *out = fftw_malloc(sizeof(fftw_complex) * (points / 2u + 1u));
+    fftw_plan p = fftw_plan_dft_r2c_1d((int)points, in, out, FFTW_ESTIMATE);
+    const double scale = ldexp(1.0, -(int)shift);
+    double sig = 0.0, err = 0.0;
+    for (uint32_t f = 0; f < frames; f++) {
+        for (uint32_t i = 0; i < points; i++)
+            in[i] = y[(size_t)f * points + i];
+        fftw_execute(p);
+        for (uint32_t k = 0; k < points / 2u; k++) {
+            const double rr = out[k][0] * scale, ri = out[k][1] * scale;
+            const double er = X[(size_t)f * points + 2u * k] - rr, ei = X[(size_t)f * points + 2u * k + 1u] - ri;
+            sig += rr * rr + ri * ri;
+            err += er * er + ei * ei;
+        }
+    }
+    fftw_destroy_plan(p);
+    fftw_free(in);
+    fftw_free(out);
+    return 10.0 * log10(sig / err);
+}
+
+/* ---- instructions per sample from callgrind ------------------------------------ */
+
+/* `tl-bench --callgrind-workload CHANNELS`: the fixed workload valgrind runs.
+ * CG_FRAMES frames through each stage loop and through the whole chain. */
+#define CG_FRAMES 16u
+
+static int callgrind_workload(uint32_t channels)
+{
+    chain_setup cs;
+    setup_chain(&cs, channels);
+    const uint32_t warm = cs.taps - 1u;
+    const size_t n = (size_t)(warm + CG_FRAMES) * cs.points;
+    int16_t *x = make_samples(n);
+    stage_data d;
+    open_stages(&d, &cs, x, CG_FRAMES);
+    d.x = x + (size_t)warm * cs.points;
+    bench_stage_pfb(&d);
+    bench_stage_fft(&d);
+    bench_stage_detect(&d);
+    bench_stage_integrate(&d);
+    bench_stage_radix2(&d);
+    tl_chain *c = open_chain(&cs);
+    size_t used = 0; /* prime the chain's filterbank outside the measured call */
+    if (tl_chain_push(c, x, NULL, (size_t)warm * cs.points, &used) != TL_OK)
+        return 1;
+    bench_stage_chain(c, x + (size_t)warm * cs.points, (size_t)CG_FRAMES * cs.points);
+    free(c);
+    close_stages(&d);
+    free(x);
+    free_setup(&cs);
+    return 0;
+}
+
+static const char *const cg_names[] = { "bench_stage_pfb", "bench_stage_fft", "bench_stage_detect",
+                                        "bench_stage_integrate", "bench_stage_radix2", "bench_stage_chain" };
+#define CG_N 6
+
+/* Run the workload under callgrind once; Ir per function (inclusive) into ir[]. */
+static int callgrind_once(const char *self, const char *dir, uint32_t channels, int run, double ir[CG_N])
+{
+    char out[4400], cmd[16384];
+    snprintf(out, sizeof out, "%s/cg.%u.%d.out", dir, channels, run);
+    snprintf(cmd, sizeof cmd,
+             "valgrind --tool=callgrind -q --callgrind-out-file='%s' '%s' --callgrind-workload %u >/dev/null 2>&1 "
+             "&& callgrind_annotate --inclusive=yes --threshold=100 '%s' 2>/dev/null",
+             out, self, channels, out);
+    FILE *p = popen(cmd, "r");
+    if (p == NULL)
+        return -1;
+    for (int i = 0; i < CG_N; i++)
+        ir[i] = -1.0;
+    char line[8192];
+    while (fgets(line, sizeof line, p) != NULL) {
+        for (int i = 0; i < CG_N; i++) {
+            char key[64];
+            snprintf(key, sizeof key, ":%s ", cg_names[i]);
+            if (strstr(line, key) == NULL)
+                continue;
+            double v = 0.0;
+            for (const char *q = line; *q == ' ' || *q == ',' || (*q >= '0' && *q <= '9'); q++)
+                if (*q >= '0' && *q <= '9')
+                    v = v * 10.0 + (*q - '0');
+            ir[i] = v;
+        }
+    }
+    const int rc = pclose(p);
+    for (int i = 0; i < CG_N; i++)
+        if (ir[i] < 0.0)
+            return -1;
+    return rc == 0 ? 0 : -1;
+}
+
+/* ---- fixed chain, its stages, the FFTW reference and the radix-2 baseline ------ */
+
+typedef struct chain_row {
+    uint32_t channels;
+    stat3 fix, ref, ratio;        /* Msample/s, Msample/s, fixed / reference */
+    stat3 ns[4];                  /* ns/sample: pfb, fft, detect, integrate */
+    stat3 r2ns, fft_speedup;      /* baseline FFT ns/sample; baseline time / our FFT time */
+    double sqnr_fft, sqnr_r2;     /* dB against FFTW double */
+    int have_ir;
+    double ir[2][CG_N];           /* instructions per sample, two callgrind runs */
+} chain_row;
+
+static void bench_chain(chain_row *row, uint32_t channels)
+{
+    chain_setup cs;
+    setup_chain(&cs, channels);
+    const uint32_t points = cs.points, taps = cs.taps;
+    tl_chain *c = open_chain(&cs);
+    double *coef = xmalloc(sizeof(double) * taps * points);
+    for (size_t n = 0; n < (size_t)taps * points; n++)
+        coef[n] = cs.t->coef[n];
+    tl_ref *ref = tl_ref_open(coef, taps, points, cs.t->shift, 1u, c->fft.total_shift, tl_config_det_shift(&cs.cfg));
+    if (ref == NULL) {
+        fprintf(stderr, "tl-bench: reference for %u channels\n", channels);
+        exit(1);
+    }
+    /* whole chain: 2^24 samples per run; stages: 2^22 samples per run */
+    const size_t frames = (size_t)((1u << 24) / points), n = frames * points;
+    int16_t *x = make_samples(n);
+    const uint32_t sframes = (1u << 22) / points;
+    stage_data d;
+    open_stages(&d, &cs, x, sframes);
+    d.x = x + (size_t)(taps - 1u) * points;
+    double tf[BENCH_REPS], tr[BENCH_REPS], rt[BENCH_REPS], ts[4][BENCH_REPS], t2[BENCH_REPS], sp[BENCH_REPS];
+    for (int rep = -1; rep < BENCH_REPS; rep++) { /* rep -1: warm-up (first touch of the buffers), not kept */
+        if (rep < 0) {
+            bench_stage_chain(c, x, n);
+            for (size_t f = 0; f < frames; f++)
+                tl_ref_push_frame(ref, x + f * points, NULL);
+            bench_stage_pfb(&d);
+            bench_stage_fft(&d);
+            bench_stage_detect(&d);
+            bench_stage_integrate(&d);
+            bench_stage_radix2(&d);
+            continue;
+        }
+        double t0 = now_s();
+        bench_stage_chain(c, x, n);
+        tf[rep] = (double)n / (now_s() - t0) / 1e6;
         t0 = now_s();
         for (size_t f = 0; f < frames; f++)
             tl_ref_push_frame(ref, x + f * points, NULL);
-        dt = now_s() - t0;
-        if (dt < best_ref)
-            best_ref = dt;
+        tr[rep] = (double)n / (now_s() - t0) / 1e6;
+        rt[rep] = tf[rep] / tr[rep];
+        void (*const stage[4])(stage_data *) = { bench_stage_pfb, bench_stage_fft, bench_stage_detect,
+                                                 bench_stage_integrate };
+        const double ns = (double)sframes * points;
+        for (int s = 0; s < 4; s++) {
+            t0 = now_s();
+            stage[s](&d);
+            ts[s][rep] = (now_s() - t0) * 1e9 / ns;
+        }
+        t0 = now_s();
+        bench_stage_radix2(&d);
+        t2[rep] = (now_s() - t0) * 1e9 / ns;
+        sp[rep] = t2[rep] / ts[1][rep];
     }
-    const double fix = (double)n / best_fix / 1e6, flt = (double)n / best_ref / 1e6;
-    printf("chain       %5u channels, %u taps, 1 input: fixed %7.1f Msample/s (%5.2f ns/sample), FFTW double "
-           "reference %6.1f Msample/s, fixed/reference %.2f\n",
-           channels, taps, fix, 1e3 / fix, flt, fix / flt);
-    json_t *o = json_object();
-    json_object_set_new(o, "channels", json_integer(channels));
-    json_object_set_new(o, "taps", json_integer(taps));
-    json_object_set_new(o, "fixed_msamples_per_s", json_real(fix));
-    json_object_set_new(o, "fixed_ns_per_sample", json_real(1e3 / fix));
-    json_object_set_new(o, "reference_msamples_per_s", json_real(flt));
-    json_object_set_new(o, "fixed_over_reference", json_real(fix / flt));
-    json_array_append_new(arr, o);
+    row->channels = channels;
+    row->fix = stat_of(tf, BENCH_REPS);
+    row->ref = stat_of(tr, BENCH_REPS);
+    row->ratio = stat_of(rt, BENCH_REPS);
+    for (int s = 0; s < 4; s++)
+        row->ns[s] = stat_of(ts[s], BENCH_REPS);
+    row->r2ns = stat_of(t2, BENCH_REPS);
+    row->fft_speedup = stat_of(sp, BENCH_REPS);
+    const uint32_t qf = sframes < 64u ? sframes : 64u;
+    row->sqnr_fft = sqnr_db(d.y, d.X, points, qf, d.fft->total_shift);
+    row->sqnr_r2 = sqnr_db(d.y, d.X2, points, qf, d.r2.log2size);
+    close_stages(&d);
     tl_ref_close(ref);
     free(x);
     free(coef);
     free(c);
-    free(img);
-    free(t);
+    free_setup(&cs);
+}
+
+static void bench_instructions(chain_row *rows, int nrows, const char *self, const char *tmp)
+{
+    char dir[4096];
+    snprintf(dir, sizeof dir, "%s/tl-bench-cg-XXXXXX", tmp);
+    if (system("valgrind --version >/dev/null 2>&1 && command -v callgrind_annotate >/dev/null 2>&1") != 0 ||
+        mkdtemp(dir) == NULL) {
+        printf("callgrind   valgrind or callgrind_annotate missing: instructions per sample NOT measured\n");
+        return;
+    }
+    for (int i = 0; i < nrows; i++) {
+        rows[i].have_ir = 1;
+        const double samples = (double)CG_FRAMES * 2.0 * rows[i].channels;
+        for (int run = 0; run < 2; run++) {
+            if (callgrind_once(self, dir, rows[i].channels, run, rows[i].ir[run]) != 0) {
+                fprintf(stderr, "tl-bench: callgrind run failed for %u channels (files in %s)\n", rows[i].channels, dir);
+                rows[i].have_ir = 0;
+                break;
+            }
+            for (int k = 0; k < CG_N; k++)
+                rows[i].ir[run][k] /= samples;
+        }
+    }
+    char cmd[4200];
+    snprintf(cmd, sizeof cmd, "rm -rf '%s'", dir);
+    if (system(cmd) != 0)
+        fprintf(stderr, "tl-bench: cannot remove %s\n", dir);
+}
+
+static void print_chain(json_t *root, const chain_row *rows, int nrows)
+{
+    static const char *const sname[4] = { "filterbank", "fft", "detection", "integration" };
+    printf("\nchain: 1 input, 4 taps, Hann; every time the median of %d runs [min max] in this run\n", BENCH_REPS);
+    printf("%-9s %-26s %-26s %-22s\n", "channels", "fixed Msample/s", "FFTW double ref Msample/s",
+           "fixed/ref");
+    for (int i = 0; i < nrows; i++)
+        printf("%-9u %7.1f [%7.1f %7.1f]   %7.1f [%7.1f %7.1f]   %5.2f [%5.2f %5.2f]\n", rows[i].channels,
+               rows[i].fix.med, rows[i].fix.min, rows[i].fix.max, rows[i].ref.med, rows[i].ref.min, rows[i].ref.max,
+               rows[i].ratio.med, rows[i].ratio.min, rows[i].ratio.max);
+    printf("\nns/sample by stage (stage functions called directly on the same data, 2^22 samples per run)\n");
+    printf("%-9s", "channels");
+    for (int s = 0; s < 4; s++)
+        printf(" %-22s", sname[s]);
+    printf(" %-10s %-10s\n", "sum", "chain");
+    for (int i = 0; i < nrows; i++) {
+        printf("%-9u", rows[i].channels);
+        double sum = 0.0;
+        for (int s = 0; s < 4; s++) {
+            printf(" %5.2f [%5.2f %5.2f]    ", rows[i].ns[s].med, rows[i].ns[s].min, rows[i].ns[s].max);
+            sum += rows[i].ns[s].med;
+        }
+        printf(" %-10.2f %-10.2f\n", sum, 1e3 / rows[i].fix.med);
+    }
+    printf("\nFFT stage against the radix-2 int32 baseline (host/bench_radix2.c), same y, same size\n");
+    printf("%-9s %-24s %-24s %-12s %-12s %-12s %-12s\n", "channels", "baseline ns/sample", "speed ours/baseline",
+           "Ir ours", "Ir baseline", "Ir ratio", "SQNR ours/baseline dB");
+    for (int i = 0; i < nrows; i++) {
+        char irs[3][32];
+        if (rows[i].have_ir) {
+            snprintf(irs[0], sizeof irs[0], "%.2f", rows[i].ir[0][1]);
+            snprintf(irs[1], sizeof irs[1], "%.2f", rows[i].ir[0][4]);
+            snprintf(irs[2], sizeof irs[2], "%.3f", rows[i].ir[0][1] / rows[i].ir[0][4]);
+        } else {
+            for (int k = 0; k < 3; k++)
+                snprintf(irs[k], sizeof irs[k], "not measured");
+        }
+        printf("%-9u %5.2f [%5.2f %5.2f]     %5.2fx [%5.2f %5.2f]     %-12s %-12s %-12s %.1f / %.1f\n",
+               rows[i].channels, rows[i].r2ns.med, rows[i].r2ns.min, rows[i].r2ns.max, rows[i].fft_speedup.med,
+               rows[i].fft_speedup.min, rows[i].fft_speedup.max, irs[0], irs[1], irs[2], rows[i].sqnr_fft,
+               rows[i].sqnr_r2);
+    }
+    printf("\ninstructions per input sample (callgrind Ir, %u frames, inclusive; run 1 | run 2)\n", CG_FRAMES);
+    printf("%-9s", "channels");
+    for (int s = 0; s < 4; s++)
+        printf(" %-19s", sname[s]);
+    printf(" %-19s %-19s %s\n", "radix-2 baseline", "whole chain", "repeat");
+    for (int i = 0; i < nrows; i++) {
+        printf("%-9u", rows[i].channels);
+        if (!rows[i].have_ir) {
+            printf(" not measured\n");
+            continue;
+        }
+        static const int order[6] = { 0, 1, 2, 3, 4, 5 };
+        int same = 1;
+        for (int k = 0; k < CG_N; k++) {
+            printf(" %8.3f | %8.3f", rows[i].ir[0][order[k]], rows[i].ir[1][order[k]]);
+            same &= rows[i].ir[0][k] == rows[i].ir[1][k];
+        }
+        printf(" %s\n", same ? "identical" : "DIFFERENT");
+    }
+    json_t *arr = json_array();
+    for (int i = 0; i < nrows; i++) {
+        json_t *o = json_object();
+        json_object_set_new(o, "channels", json_integer(rows[i].channels));
+        json_object_set_new(o, "taps", json_integer(4));
+        json_object_set_new(o, "inputs", json_integer(1));
+        json_object_set_new(o, "fixed_msamples_per_s", json_stat(rows[i].fix));
+        json_object_set_new(o, "reference_msamples_per_s", json_stat(rows[i].ref));
+        json_object_set_new(o, "fixed_over_reference", json_stat(rows[i].ratio));
+        json_t *st = json_object();
+        for (int s = 0; s < 4; s++)
+            json_object_set_new(st, sname[s], json_stat(rows[i].ns[s]));
+        json_object_set_new(o, "stage_ns_per_sample", st);
+        json_object_set_new(o, "radix2_fft_ns_per_sample", json_stat(rows[i].r2ns));
+        json_object_set_new(o, "fft_speed_over_radix2", json_stat(rows[i].fft_speedup));
+        json_object_set_new(o, "fft_sqnr_db", json_real(rows[i].sqnr_fft));
+        json_object_set_new(o, "radix2_sqnr_db", json_real(rows[i].sqnr_r2));
+        if (rows[i].have_ir) {
+            json_t *ir = json_array();
+            for (int run = 0; run < 2; run++) {
+                json_t *r = json_object();
+                for (int k = 0; k < CG_N; k++)
+                    json_object_set_new(r, cg_names[k] + strlen("bench_stage_"), json_real(rows[i].ir[run][k]));
+                json_array_append_new(ir, r);
+            }
+            json_object_set_new(o, "instructions_per_sample_two_runs", ir);
+            json_object_set_new(o, "fft_instructions_over_radix2", json_real(rows[i].ir[0][1] / rows[i].ir[0][4]));
+        } else {
+            json_object_set_new(o, "instructions_per_sample_two_runs", json_null());
+        }
+        json_array_append_new(arr, o);
+    }
+    json_object_set_new(root, "chain", arr);
 }
 
 /* ---- the downlink encoder against liblz4 ------------------------------------- */
@@ -324,10 +774,69 @@ static int bench_replay(json_t *root, const char *tool, const char *tmp, double 
     json_object_set_new(o, "replay_msamples_per_s", json_real(samples / t_rep / 1e6));
     json_object_set_new(o, "replay_peak_rss_kib", json_integer(rss_rep));
     json_object_set_new(o, "simulate_peak_rss_kib", json_integer(rss_sim));
+    /* the firmware chain alone through `replay --threads N`: 1 and 2 threads,
+     * median of 3 runs each, and the spectra files compared byte for byte */
+    double tt[2][3];
+    long rss_t[2] = { 0, 0 };
+    char outs[2][4300];
+    for (int k = 0; k < 2; k++) {
+        snprintf(outs[k], sizeof outs[k], "%s/out-t%d", dir, k + 1);
+        char targ[8];
+        snprintf(targ, sizeof targ, "%d", k + 1);
+        for (int rep = 0; rep < 3; rep++) {
+            long rk = 0;
+            char *t_argv[] = { (char *)tool, "replay", meta, "--threads", targ, "-q", "-o", outs[k], NULL };
+            rc = spawn(t_argv, log, &tt[k][rep], &rk);
+            if (rc != 0) {
+                fprintf(stderr, "tl-bench: replay --threads %d failed (exit %d), see %s\n", k + 1, rc, log);
+                return -1;
+            }
+            if (rk > rss_t[k])
+                rss_t[k] = rk;
+        }
+    }
+    char cmp[40000];
+    snprintf(cmp, sizeof cmp, "cmp -s '%s/auto0.npy' '%s/auto0.npy' && cmp -s '%s/auto1.npy' '%s/auto1.npy' && "
+             "cmp -s '%s/cross.npy' '%s/cross.npy' && cmp -s '%s/auto0.npy' '%s/auto0.npy'",
+             outs[0], outs[1], outs[0], outs[1], outs[0], outs[1], out, outs[1]);
+    const int same = system(cmp) == 0;
+    const stat3 t1 = stat_of(tt[0], 3), t2 = stat_of(tt[1], 3);
+    const double speedup = t1.med / t2.med;
+    printf("replay      firmware chain only (replay --threads N, same recording, median of 3 [min max]): 1 thread "
+           "%.2f s [%.2f %.2f] (%.1f Msample/s), 2 threads %.2f s [%.2f %.2f] (%.1f Msample/s): x%.2f, efficiency "
+           "%.0f%%; spectra identical to 1 thread and to the serial replay: %s; peak RSS %.1f / %.1f MiB (bound "
+           "%.1f / %.1f MiB + the product)\n",
+           t1.med, t1.min, t1.max, samples / t1.med / 1e6, t2.med, t2.min, t2.max, samples / t2.med / 1e6, speedup,
+           100.0 * speedup / 2.0, same ? "yes" : "NO", (double)rss_t[0] / 1024.0, (double)rss_t[1] / 1024.0,
+           (double)tl_replay_threads_bytes(1, 0) / 1048576.0, (double)tl_replay_threads_bytes(2, 0) / 1048576.0);
+    json_t *th = json_object();
+    json_object_set_new(th, "one_thread_s", json_stat(t1));
+    json_object_set_new(th, "two_threads_s", json_stat(t2));
+    json_object_set_new(th, "speedup_2_over_1", json_real(speedup));
+    json_object_set_new(th, "efficiency", json_real(speedup / 2.0));
+    json_object_set_new(th, "identical", json_boolean(same));
+    json_object_set_new(th, "peak_rss_kib_1", json_integer(rss_t[0]));
+    json_object_set_new(th, "peak_rss_kib_2", json_integer(rss_t[1]));
+    json_object_set_new(th, "bound_bytes_1", json_integer((json_int_t)tl_replay_threads_bytes(1, 0)));
+    json_object_set_new(th, "bound_bytes_2", json_integer((json_int_t)tl_replay_threads_bytes(2, 0)));
+    json_object_set_new(o, "threads", th);
     json_object_set_new(root, "replay", o);
     char cmd[4400];
     snprintf(cmd, sizeof cmd, "rm -rf '%s'", dir);
     return system(cmd) == 0 ? 0 : -1;
+}
+
+/* The 1-minute load average (other work on the machine while timing), or -1. */
+static double load_average(void)
+{
+    double l = -1.0;
+    FILE *f = fopen("/proc/loadavg", "r");
+    if (f != NULL) {
+        if (fscanf(f, "%lf", &l) != 1)
+            l = -1.0;
+        fclose(f);
+    }
+    return l;
 }
 
 int main(int argc, char **argv)
@@ -343,6 +852,8 @@ int main(int argc, char **argv)
             tool = argv[++i];
         else if (strcmp(argv[i], "--tmp") == 0 && i + 1 < argc)
             tmp = argv[++i];
+        else if (strcmp(argv[i], "--callgrind-workload") == 0 && i + 1 < argc)
+            return callgrind_workload((uint32_t)strtoul(argv[++i], NULL, 10));
         else {
             fprintf(stderr, "tl-bench: unknown option '%s' (options: --json PATH, --replay-gib X from 0 to 64, "
                             "--tidelock PATH, --tmp DIR)\n", argv[i]);
@@ -354,17 +865,36 @@ int main(int argc, char **argv)
         return 2;
     }
     json_t *root = json_object();
+    const long cpus = sysconf(_SC_NPROCESSORS_ONLN);
+    const double load0 = load_average();
     printf("tidelock bench (one core; timings depend on the machine, ratios are measured in this run)\n");
+    printf("machine     %ld online CPUs, 1-minute load average %.2f at start\n", cpus, load0);
+    json_object_set_new(root, "online_cpus", json_integer(cpus));
+    json_object_set_new(root, "load_average_start", json_real(load0));
     bench_synthesis(root);
-    json_t *arr = json_array();
     const uint32_t ch[] = { 1024u, 4096u, 8192u };
-    for (size_t i = 0; i < sizeof ch / sizeof ch[0]; i++)
-        bench_chain(arr, ch[i]);
-    json_object_set_new(root, "chain", arr);
+    enum { NCH = sizeof ch / sizeof ch[0] };
+    chain_row rows[NCH];
+    memset(rows, 0, sizeof rows);
+    for (int i = 0; i < NCH; i++)
+        bench_chain(&rows[i], ch[i]);
+    char self[4096];
+    const ssize_t sl = readlink("/proc/self/exe", self, sizeof self - 1u);
+    if (sl > 0) {
+        self[sl] = '\0';
+        bench_instructions(rows, NCH, self, tmp);
+    } else {
+        printf("callgrind   /proc/self/exe unreadable: instructions per sample NOT measured\n");
+    }
+    print_chain(root, rows, NCH);
+    printf("\n");
     bench_encoder(root);
     int rc = 0;
     if (gib > 0.0 && bench_replay(root, tool, tmp, gib) != 0)
         rc = 1;
+    const double load1 = load_average();
+    printf("machine     1-minute load average %.2f at the end (above 0 means other work shared the cores)\n", load1);
+    json_object_set_new(root, "load_average_end", json_real(load1));
     if (json_path != NULL && json_dump_file(root, json_path, JSON_INDENT(2) | JSON_REAL_PRECISION(6)) != 0) {
         fprintf(stderr, "tl-bench: %s: cannot write\n", json_path);
         rc = 1;

@@ -13,16 +13,18 @@
 
 #include "commands.h"
 #include "fidelity.h"
+#include "replay_threads.h"
 #include "report.h"
 #include "run.h"
 #include "run_outputs.h"
 #include "scenario.h"
 #include "sigmf.h"
+#include "spectra_out.h"
 #include "taps_design.h"
 
 
 static const char *const replay_help =
-    "usage: tidelock replay RECORDING.sigmf-meta [SCENARIO.ini] [-o DIR] [--block-kib N] [-q]\n"
+    "usage: tidelock replay RECORDING.sigmf-meta [SCENARIO.ini] [-o DIR] [--block-kib N] [--threads N] [-q]\n"
     "\n"
     "Run a SigMF recording through the firmware chain and the FFTW double references, print the\n"
     "same report as `tidelock run` and write the same files into DIR. The scenario gives the\n"
@@ -38,6 +40,11 @@ static const char *const replay_help =
     "options:\n"
     "  -o, --output DIR    output folder (default: the scenario's [output] folder)\n"
     "      --block-kib N   read block in KiB, from 4 to 65536 (default 1024)\n"
+    "      --threads N     the firmware chain only, in N segments run in parallel (1 to 64): writes the\n"
+    "                      antenna state's spectra files (auto*, cross, flags; the bytes the serial\n"
+    "                      chain gives), no references, report or calibration. Refused with one line\n"
+    "                      when a split cannot be exact (spectral kurtosis blocks, a detection shift\n"
+    "                      below ceil(log2 spectra)). Memory: N x (chain + product + read block)\n"
     "  -q, --quiet         print nothing but errors; the exit status tells the verdict\n"
     "  -h, --help          this text\n"
     "exit status: 0 PASS, 1 FAIL or error (bad recording, scenario mismatch, I/O), 2 usage\n"
@@ -146,15 +153,17 @@ int tl_cmd_replay(int argc, char **argv)
     static const struct option opts[] = { { "output", required_argument, NULL, 'o' },
                                           { "block-kib", required_argument, NULL, 'b' },
                                           { "quiet", no_argument, NULL, 'q' },
+                                          { "threads", required_argument, NULL, 't' },
                                           { "help", no_argument, NULL, 'h' },
                                           { NULL, 0, NULL, 0 } };
-    const char *dir = NULL, *block = NULL;
+    const char *dir = NULL, *block = NULL, *threads_arg = NULL;
     int quiet = 0, c;
     opterr = 0;
     while ((c = getopt_long(argc, argv, ":o:qh", opts, NULL)) != -1) {
         switch (c) {
         case 'o': dir = optarg; break;
         case 'b': block = optarg; break;
+        case 't': threads_arg = optarg; break;
         case 'q': quiet = 1; break;
         case 'h': fputs(replay_help, stdout); return EXIT_OK;
         default: return tl_cli_bad_option("replay", argv, c);
@@ -171,6 +180,14 @@ int tl_cmd_replay(int argc, char **argv)
         if (end == block || *end != '\0' || block[0] == '-' || v < 4 || v > 65536)
             return tl_cli_usage("replay", "--block-kib: '%s' is not a whole number from 4 to 65536", block);
         block_bytes = (size_t)v * 1024u;
+    }
+    unsigned threads = 0;
+    if (threads_arg != NULL) {
+        char *end = NULL;
+        const unsigned long long v = strtoull(threads_arg, &end, 10);
+        if (end == threads_arg || *end != '\0' || threads_arg[0] == '-' || v < 1 || v > TL_REPLAY_MAX_THREADS)
+            return tl_cli_usage("replay", "--threads: '%s' is not a whole number from 1 to 64", threads_arg);
+        threads = (unsigned)v;
     }
     /* NAME, NAME.sigmf-data and NAME.sigmf-meta all name the recording */
     char meta[4096];
@@ -249,6 +266,31 @@ int tl_cmd_replay(int argc, char **argv)
             printf("replay: note: the recording states no core:sample_rate; the scenario's %.6g MHz is assumed\n",
                    s.sky.sample_rate_hz / 1e6);
         fflush(stdout);
+    }
+    if (threads > 0u) {
+        tl_product *p = malloc(sizeof *p);
+        if (p == NULL) {
+            snprintf(err, sizeof err, "out of memory");
+            goto fail;
+        }
+        char why[4096];
+        if (tl_replay_threads_product(meta, block_bytes, &s, threads, p, why, sizeof why) != 0) {
+            snprintf(err, sizeof err, "%s", why);
+            free(p);
+            goto fail;
+        }
+        if (tl_run_outputs_folder(dir, err, sizeof err) != 0 ||
+            tl_spectra_write(dir, p, s.sky.sample_rate_hz, (int)s.write_csv, (int)s.write_npy, err, sizeof err) != 0) {
+            free(p);
+            goto fail;
+        }
+        if (!quiet)
+            printf("replay: firmware chain in %u thread%s: %u spectra (antenna %u, discarded %u); spectra files in "
+                   "%s/\n",
+                   threads, threads == 1u ? "" : "s", p->spectra, p->antenna_spectra, p->discarded, dir);
+        free(p);
+        tl_sigmf_close(rd);
+        return EXIT_OK;
     }
     r = malloc(sizeof *r);
     if (r == NULL) {
