@@ -159,3 +159,7 @@ help: ## list targets
 # tests/test_cross.c (in every suite) compares all vectors on all three.
 include hil/targets.mk
 # ---- end of cross-target block ------------------------------------------------------
+
+# ---- fuzzing and analysis gates (tests/fuzz/fuzz.mk; docs/faults.md) --------------
+include tests/fuzz/fuzz.mk
+# ---- end of fuzzing and analysis block ----------------------------------------------

@@ -5,7 +5,10 @@ set -euo pipefail
 pkgs=(gcc make pkg-config libfftw3-dev libcmocka-dev libjansson-dev libinih-dev liblz4-dev python3-numpy
       # cross-target builds (hil/targets.mk): Cortex-M7 bare metal under QEMU, big-endian PowerPC under qemu-ppc
       gcc-arm-none-eabi libnewlib-arm-none-eabi qemu-system-arm gcc-powerpc-linux-gnu libc6-dev-powerpc-cross
-      qemu-user)
+      qemu-user
+      # fuzzing and analysis gates (tests/fuzz/fuzz.mk): clang with libFuzzer and the sanitizer
+      # runtimes (libclang-rt-14-dev is only a recommendation of clang), valgrind, cppcheck, gcovr
+      clang libclang-rt-14-dev valgrind cppcheck gcovr)
 missing=()
 for p in "${pkgs[@]}"; do
     dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed" || missing+=("$p")

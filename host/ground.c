@@ -1366,8 +1366,19 @@ static void raw_process(tl_ground *g)
         const uint64_t off = g->base + g->start;
         if (avail == 0u)
             return;
+        /* While hunting, a packet may start only where tl_packet_resync
+         * would take one: at a plausible header. Without this, the octets
+         * a resync left undecided at the end of a block (fewer than 7) were
+         * parsed as they came, so a header there announcing a long packet
+         * stalled the decoder and the split of the input changed the
+         * result (found by tests/fuzz/fuzz_ground.c; test_decode.c
+         * test_raw_resync_any_split). */
+        const size_t judge = TL_PACKET_PRIMARY_OCTETS + 1u;
+        if (g->hunting && avail < judge && !g->eof)
+            return; /* wait for the octets that decide */
+        const int candidate = !g->hunting || tl_packet_plausible(p, avail, TL_PACKET_MAX_LEN);
         tl_packet_view v;
-        tl_status st = tl_packet_parse(p, avail, &v);
+        tl_status st = candidate ? tl_packet_parse(p, avail, &v) : TL_E_FORMAT;
         if (st == TL_OK && v.apid == TL_PACKET_APID_IDLE && !idle_data_ok(p, v.packet_len))
             st = TL_E_FORMAT;
         if (st == TL_OK) {

@@ -28,6 +28,12 @@ static void say(char *err, size_t cap, const char *fmt, ...)
     va_start(ap, fmt);
     vsnprintf(err, cap, fmt, ap);
     va_end(ap);
+    /* one line whatever the file holds: a control character quoted from the
+     * meta (a field name with "\n" in it) becomes '?' (found by
+     * tests/fuzz/fuzz_sigmf.c; test_sigmf.c test_error_one_line) */
+    for (char *c = err; *c != '\0'; c++)
+        if ((unsigned char)*c < 0x20u || *c == 0x7F)
+            *c = '?';
 }
 
 static int ends_with(const char *s, const char *suffix)

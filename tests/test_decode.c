@@ -1230,6 +1230,53 @@ static void damaged_raw(void **state)
     free_stream(st);
 }
 
+/* Raw mode, regression: the fuzzer's input tests/fuzz/regress/ground/
+ * raw-resync-split.bin (tests/fuzz/fuzz_ground.c, mode octet 0x01, split
+ * octet 3, then 3508 octets: a packet with a bad CRC, 460 octets of junk, two
+ * good packets). ground.h: "any split gives the same result". Before the
+ * fix, the octets a resync left undecided at the end of a 184-octet block
+ * were parsed unchecked, a header there announced a long packet, and the
+ * decoder waited for it to the end: all 3508 octets skipped, both good
+ * packets lost. Whole or in blocks of 1, 7, 184 or 1000, the decode must be
+ * the same: 1 CRC error, 1 resync, 1479 octets skipped, 2 packets ok. */
+static void raw_resync_any_split(void **state)
+{
+    (void)state;
+    FILE *f = fopen("tests/fuzz/regress/ground/raw-resync-split.bin", "rb");
+    assert_non_null(f);
+    static uint8_t b[8192];
+    const size_t n = fread(b, 1, sizeof b, f);
+    fclose(f);
+    assert_int_equal(n, 3510);
+    assert_int_equal(b[0], 0x01);
+    tl_ground_config gc;
+    tl_ground_config_default(&gc);
+    gc.raw = 1;
+    gc.in_flight = 1; /* the fuzz target's mode octet 0x01: in-flight index 0 */
+    gc.log_limit = 1000;
+    const size_t splits[] = { 3508, 1, 7, 184, 1000 };
+    for (size_t k = 0; k < sizeof splits / sizeof splits[0]; k++) {
+        char err[256];
+        tl_ground *g = tl_ground_open(&gc, NULL, NULL, err, sizeof err);
+        assert_non_null(g);
+        for (size_t at = 0; at < n - 2; at += splits[k]) {
+            const size_t len = n - 2 - at < splits[k] ? n - 2 - at : splits[k];
+            assert_int_equal(tl_ground_feed(g, b + 2 + at, len, err, sizeof err), 0);
+        }
+        assert_int_equal(tl_ground_finish(g, err, sizeof err), 0);
+        const tl_ground_totals *t = tl_ground_totals_of(g);
+        printf("[ INFO     ] raw resync, blocks of %zu: %llu skipped, %llu ok, %llu crc, %llu resyncs\n", splits[k],
+               (unsigned long long)t->bytes_skipped, (unsigned long long)t->packets[TL_GP_OK],
+               (unsigned long long)t->packets[TL_GP_CRC], (unsigned long long)t->resyncs);
+        assert_int_equal(t->bytes, 3508);
+        assert_int_equal(t->bytes_skipped, 1479);
+        assert_int_equal(t->packets[TL_GP_OK], 2);
+        assert_int_equal(t->packets[TL_GP_CRC], 1);
+        assert_int_equal(t->resyncs, 1);
+        tl_ground_close(g);
+    }
+}
+
 /* A file cut short anywhere: what precedes the cut decodes, the frame or
  * packet cut is reported truncated, nothing else is lost. */
 static void truncated_files(void **state)
@@ -1855,7 +1902,7 @@ int main(int argc, char **argv)
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(round_trip_clean), cmocka_unit_test(damaged_frames), cmocka_unit_test(damaged_raw),
         cmocka_unit_test(truncated_files),  cmocka_unit_test(hostile_input),  cmocka_unit_test(restarted_sender),
-        cmocka_unit_test(command_line),
+        cmocka_unit_test(command_line), cmocka_unit_test(raw_resync_any_split),
     };
     return cmocka_run_group_tests(tests, NULL, summary);
 }

@@ -860,6 +860,25 @@ static const char *handmade(const char *name, const char *global_fields, const v
     return meta;
 }
 
+/* An error is one line even when the meta quotes a control character
+ * (sigmf.h: "Every error is one line naming the file, the field and the
+ * allowed values"). Reproducer from tests/fuzz/fuzz_sigmf.c: a field name
+ * holding an escaped newline and tab was echoed verbatim, splitting the
+ * message. */
+static void test_error_one_line(void **state)
+{
+    (void)state;
+    const int16_t v[2] = { 0, 0 };
+    const char *meta =
+        handmade("ctl", "\"core:datatype\": \"ri16_le\", \"core:descr\\nx\\ty\": \"seed\"", v, sizeof v);
+    char err[1024];
+    assert_null(tl_sigmf_open(meta, 0, err, sizeof err));
+    printf("    %s\n", err);
+    assert_null(strchr(err, '\n'));
+    assert_null(strchr(err, '\t'));
+    assert_non_null(strstr(err, "'core:descr?x?y'"));
+}
+
 static tl_sigmf_reader *open_ok(const char *meta, size_t block)
 {
     char err[1024];
@@ -1190,6 +1209,7 @@ int main(int argc, char **argv)
         cmocka_unit_test(test_round_trip_equals_run),
         cmocka_unit_test(test_bad_recordings_refused),
         cmocka_unit_test(test_help_and_usage),
+        cmocka_unit_test(test_error_one_line),
         cmocka_unit_test(test_reader_ri8),
         cmocka_unit_test(test_reader_rf32),
         cmocka_unit_test(test_reader_ri16),
