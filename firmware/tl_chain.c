@@ -63,6 +63,7 @@ static void start_integration(tl_chain *c)
     c->spectra = 0;
     c->discarded = 0;
     memset(&c->stats, 0, sizeof c->stats);
+    memset(&c->acq, 0, sizeof c->acq);
     c->first_frame = 0;
     c->ready = 0;
     tl_sk_reset(&c->sk);
@@ -79,6 +80,7 @@ static tl_status start(tl_chain *c)
             return st;
     }
     c->fill = 0;
+    c->gap_hold = 0;
     tl_switch_reset(&c->sw);
     start_integration(c);
     return TL_OK;
@@ -190,8 +192,12 @@ static void process_frame(tl_chain *c)
     const unsigned shift = (unsigned)c->cfg.det_shift;
     const tl_rounding mode = (tl_rounding)c->cfg.rounding;
     const uint32_t state = tl_switch_state(&c->sw);
-    const int keep = tl_switch_keep(&c->sw);
+    const int sw_keep = tl_switch_keep(&c->sw);
+    const int straddles = c->gap_hold != 0u;
+    const int keep = sw_keep && !straddles;
     tl_switch_advance(&c->sw);
+    if (straddles)
+        c->gap_hold--;
     int have = 1;
     for (uint32_t i = 0; i < c->cfg.inputs; i++) {
         if (!tl_pfb_commit(&c->pfb[i], c->y, &c->stats.pfb_sat[i])) {
@@ -226,6 +232,8 @@ static void process_frame(tl_chain *c)
         it->spectra++;
     } else {
         c->discarded++;
+        if (sw_keep)
+            tl_count_add(&c->acq.gap_discarded, 1u);
     }
     if (c->spectra >= c->cfg.integration)
         c->ready = 1u;
@@ -258,6 +266,50 @@ tl_status tl_chain_push(tl_chain *c, const int16_t *in0, const int16_t *in1, siz
         }
     }
     *used = done;
+    return TL_OK;
+}
+
+uint32_t tl_acq_duty_ppm(const tl_acq_counts *a)
+{
+    if (a == NULL)
+        return 0u;
+    const uint64_t seen = (uint64_t)a->blocks_kept + a->blocks_lost;
+    if (seen == 0u)
+        return 1000000u;
+    return (uint32_t)((uint64_t)a->blocks_kept * 1000000u / seen);
+}
+
+tl_status tl_chain_block_kept(tl_chain *c)
+{
+    if (c == NULL)
+        return TL_E_NULL;
+    if (c->initialised != TL_CHAIN_MAGIC)
+        return TL_E_NOT_INIT;
+    tl_count_add(&c->acq.blocks_kept, 1u);
+    return TL_OK;
+}
+
+tl_status tl_chain_gap(tl_chain *c, uint32_t blocks, uint64_t samples)
+{
+    if (c == NULL)
+        return TL_E_NULL;
+    if (c->initialised != TL_CHAIN_MAGIC)
+        return TL_E_NOT_INIT;
+    if (c->ready || c->sk_ready)
+        return TL_E_BUSY;
+    tl_count_add(&c->acq.blocks_lost, blocks);
+    c->acq.samples_lost = (UINT64_MAX - c->acq.samples_lost < samples) ? UINT64_MAX : c->acq.samples_lost + samples;
+    if (blocks == 0u && samples == 0u)
+        return TL_OK;
+    tl_count_add(&c->acq.gaps, 1u);
+    tl_count_add(&c->acq.abandoned, c->fill);
+    /* frame slots the abandoned frame and the lost samples cover (time) */
+    const uint64_t N = c->cfg.points;
+    const uint64_t span = (samples > UINT64_MAX - 2u * N) ? UINT64_MAX : samples + c->fill + N - 1u;
+    const uint64_t slots = span / N;
+    c->frames = (UINT64_MAX - c->frames < slots) ? UINT64_MAX : c->frames + slots;
+    c->fill = 0;
+    c->gap_hold = c->cfg.taps - 1u;
     return TL_OK;
 }
 
@@ -296,6 +348,7 @@ tl_status tl_chain_take(tl_chain *c, tl_product *out)
     out->taps_shift = c->taps.shift;
     out->taps_crc = c->taps.crc;
     out->stats = c->stats;
+    out->acq = c->acq;
     for (uint32_t i = 0; i < 4u; i++)
         out->stats.acc_sat[i] = ant->sat_channels[i];
     for (uint32_t s = 1; s < TL_STATES; s++) {

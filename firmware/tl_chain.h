@@ -21,6 +21,15 @@
  * product (or block) is taken, push consumes nothing and returns
  * TL_E_BUSY. When both finish on the same spectrum, take the block first. No hidden globals: all state is in the
  * context; nothing is allocated.
+ *
+ * Capture blocks and gaps. When the ADC's samples arrive as capture blocks
+ * and some are lost (they arrived while the processor was busy and found
+ * no free buffer), the caller says so with tl_chain_gap between two
+ * pushes; after every block it did push whole it calls tl_chain_block_kept.
+ * A gap abandons the partly received frame, and the P - 1 spectra that
+ * follow it (P = taps) are computed but not integrated: their filterbank
+ * history holds frames from before the gap (docs/fixed-point.md, "Gaps").
+ * They are counted in tl_product.discarded and in acq.gap_discarded.
  */
 #ifndef TL_CHAIN_H
 #define TL_CHAIN_H
@@ -73,6 +82,23 @@ typedef struct tl_stats {
     uint32_t acc_sat[4];                 /* channels whose sum saturated: auto0, auto1, cross re, cross im */
 } tl_stats;
 
+/* Acquisition counters of one integration (tl_chain_block_kept,
+ * tl_chain_gap). Counts saturate at UINT32_MAX / UINT64_MAX. A block
+ * counts in the integration that is running when it is reported. */
+typedef struct tl_acq_counts {
+    uint32_t blocks_kept;     /* capture blocks pushed whole (tl_chain_block_kept) */
+    uint32_t blocks_lost;     /* capture blocks lost (tl_chain_gap) */
+    uint64_t samples_lost;    /* samples per input in the lost blocks */
+    uint32_t gaps;            /* tl_chain_gap calls with at least one block or sample */
+    uint32_t gap_discarded;   /* spectra not integrated: their filterbank history straddles a gap */
+    uint32_t abandoned;       /* samples per input of partly received frames a gap cut short */
+} tl_acq_counts;
+
+/* Duty cycle in parts per million: blocks_kept x 10^6 / (blocks_kept +
+ * blocks_lost), rounded down; 1000000 when no block was reported (the
+ * caller pushed samples without capture blocks: nothing was lost). */
+uint32_t tl_acq_duty_ppm(const tl_acq_counts *a);
+
 /* Sums of one calibration state (reference load, or load plus noise source). */
 typedef struct tl_cal_sums {
     uint32_t spectra;                                    /* spectra integrated in this state */
@@ -92,7 +118,7 @@ typedef struct tl_product {
     uint32_t index;           /* integration number since init, from 0 */
     uint32_t spectra;         /* spectra in the integration (= config integration), all states */
     uint32_t antenna_spectra; /* of them integrated into auto_power / cross (antenna state) */
-    uint32_t discarded;       /* of them dropped after switch changes */
+    uint32_t discarded;       /* of them not integrated: after switch changes, and acq.gap_discarded after gaps */
     uint32_t sk_blocks;       /* spectral kurtosis blocks completed in this integration */
     uint32_t sk_dropped;      /* antenna spectra of the block the integration's end cut short (values x N
                                * plus the spectra of the running value) */
@@ -108,6 +134,9 @@ typedef struct tl_product {
     uint32_t taps_shift;      /* h = c / 2^taps_shift */
     uint32_t taps_crc;        /* CRC-32C of the coefficient table in use */
     tl_stats stats;
+    tl_acq_counts acq;        /* capture blocks kept and lost, gaps (samples integrated per input in the
+                               * antenna state: antenna_spectra x points; effective integration time:
+                               * antenna_spectra x points / sample rate) */
     uint64_t auto_power[TL_MAX_INPUTS][TL_MAX_CHANNELS]; /* sum of round(|X|^2 / 2^det_shift) */
     int64_t cross_re[TL_MAX_CHANNELS];                   /* sum of round(Re X conj Y / 2^det_shift) */
     int64_t cross_im[TL_MAX_CHANNELS];
@@ -149,7 +178,9 @@ typedef struct tl_chain {
     tl_fft fft;
     tl_switch sw;
     uint32_t spectra;         /* spectra in the running integration, all states */
-    uint32_t discarded;       /* of them dropped after switch changes */
+    uint32_t discarded;       /* of them not integrated (switch changes and gaps) */
+    uint32_t gap_hold;        /* spectra still to discard after a gap: their history straddles it */
+    tl_acq_counts acq;        /* of the running integration */
     tl_integrator integ[TL_STATES]; /* one bank per switch state */
     tl_sk sk;                 /* spectral kurtosis sums of the running block */
     int32_t y[TL_MAX_POINTS];
@@ -191,6 +222,26 @@ tl_status tl_chain_reset(tl_chain *c);
  * tl_chain_ready), TL_E_BUSY (a product waits; nothing consumed), TL_E_NULL,
  * TL_E_NOT_INIT. */
 tl_status tl_chain_push(tl_chain *c, const int16_t *in0, const int16_t *in1, size_t count, size_t *used);
+
+/* One capture block of samples was pushed whole: count it
+ * (acq.blocks_kept of the running integration). Returns TL_OK, TL_E_NULL,
+ * TL_E_NOT_INIT. Never touches the samples or the sums. */
+tl_status tl_chain_block_kept(tl_chain *c);
+
+/* `blocks` capture blocks holding `samples` samples per input were lost
+ * between the last push and the next. Counts them (acq.blocks_lost,
+ * acq.samples_lost, acq.gaps); when blocks or samples is non-zero the
+ * partly received frame, if any, is abandoned (its samples are counted in
+ * acq.abandoned) and the next taps - 1 completed spectra are computed but
+ * not integrated (acq.gap_discarded, included in discarded; a spectrum of
+ * that window that falls in a switch discard window counts there only).
+ * The frame counter (and so the packet time of later spectra) advances by
+ * ceil((received + samples) / points) frames, received being the samples
+ * of the abandoned frame: exact when blocks are whole frames. The switch
+ * sequence does not advance for lost frames. Returns TL_OK, TL_E_NULL,
+ * TL_E_NOT_INIT, or TL_E_BUSY when a product or a spectral kurtosis block
+ * waits (take it first; nothing is counted). */
+tl_status tl_chain_gap(tl_chain *c, uint32_t blocks, uint64_t samples);
 
 /* Switch state (TL_STATE_*) of the frame being received now: a host
  * simulator asks before producing each frame's samples. */

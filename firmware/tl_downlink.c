@@ -262,7 +262,7 @@ static size_t put_hk(tl_downlink *d, const tl_product *p, int taps_ok)
     uint8_t *u = d->user;
     const uint32_t s = p->fft_stages + 1u;
     memset(u, 0, TL_DL_HK_OCTETS(s));
-    u[0] = (uint8_t)TL_DL_VERSION;
+    u[0] = (uint8_t)TL_DL_HK_VERSION;
     u[1] = (uint8_t)TL_DL_KIND_HOUSEKEEPING;
     u[2] = d->cfg.mode;
     u[3] = (uint8_t)p->inputs;
@@ -301,7 +301,16 @@ static size_t put_hk(tl_downlink *d, const tl_product *p, int taps_ok)
     for (uint32_t c = 0; c < 2u; c++)
         for (uint32_t q = 0; q < 4u; q++, o += 4u)
             tl_put_be32(u + o, p->cal[c].acc_sat[q]);
-    return o;
+    const tl_acq_counts *a = &p->acq;
+    const uint64_t seen = (uint64_t)a->blocks_kept + a->blocks_lost;
+    tl_put_be32(u + o, seen > UINT32_MAX ? UINT32_MAX : (uint32_t)seen);
+    tl_put_be32(u + o + 4u, a->blocks_kept);
+    tl_put_be32(u + o + 8u, a->blocks_lost);
+    tl_put_be64(u + o + 12u, a->samples_lost);
+    tl_put_be32(u + o + 20u, tl_acq_duty_ppm(a));
+    tl_put_be32(u + o + 24u, a->gap_discarded);
+    tl_put_be32(u + o + 28u, a->abandoned);
+    return o + TL_DL_HK_ACQ_OCTETS;
 }
 
 tl_status tl_downlink_product(tl_downlink *d, const tl_product *p, int taps_ok, tl_downlink_sink sink, void *user)
@@ -409,8 +418,10 @@ tl_status tl_downlink_parse_hk(const uint8_t *user, size_t len, tl_dl_hk *h)
     if (len < 44u)
         return TL_E_FORMAT;
     const uint32_t s = user[21];
-    if (user[0] != TL_DL_VERSION || user[1] != TL_DL_KIND_HOUSEKEEPING || user[3] < 1u || user[3] > TL_MAX_INPUTS
-        || s < 1u || s > TL_MAX_FFT_STAGES + 1u || len != TL_DL_HK_OCTETS(s))
+    const uint32_t ver = user[0];
+    if ((ver != 1u && ver != TL_DL_HK_VERSION) || user[1] != TL_DL_KIND_HOUSEKEEPING || user[3] < 1u
+        || user[3] > TL_MAX_INPUTS || s < 1u || s > TL_MAX_FFT_STAGES + 1u
+        || len != (ver == 1u ? TL_DL_HK_V1_OCTETS(s) : TL_DL_HK_OCTETS(s)))
         return TL_E_FORMAT;
     tl_dl_hk r;
     memset(&r, 0, sizeof r);
@@ -445,6 +456,16 @@ tl_status tl_downlink_parse_hk(const uint8_t *user, size_t len, tl_dl_hk *h)
     for (uint32_t st = 0; st < 3u; st++)
         for (uint32_t q = 0; q < 4u; q++, o += 4u)
             r.acc_sat[st][q] = tl_get_be32(user + o);
+    if (ver == TL_DL_HK_VERSION) {
+        r.has_acq = 1u;
+        r.blocks_seen = tl_get_be32(user + o);
+        r.blocks_processed = tl_get_be32(user + o + 4u);
+        r.blocks_dropped = tl_get_be32(user + o + 8u);
+        r.samples_dropped = tl_get_be64(user + o + 12u);
+        r.duty_ppm = tl_get_be32(user + o + 20u);
+        r.gap_discarded = tl_get_be32(user + o + 24u);
+        r.abandoned = tl_get_be32(user + o + 28u);
+    }
     *h = r;
     return TL_OK;
 }

@@ -56,7 +56,14 @@
  *          histogram (tl_stats.adc_hist)
  *   then   4 x 4 accumulator saturations (auto0, auto1, cross re, cross im)
  *          for the antenna, the load and the load + noise states (48 octets)
- * Its length is TL_DL_HK_OCTETS(s).
+ *   then   the acquisition block (version 2 on; TL_DL_HK_ACQ_OCTETS = 32), of
+ *          the integration: 4 capture blocks seen, 4 processed, 4 dropped,
+ *          8 samples dropped (per input), 4 duty cycle in ppm
+ *          (tl_acq_duty_ppm), 4 spectra discarded at gaps, 4 samples of
+ *          frames abandoned at gaps (per input)
+ * Its length is TL_DL_HK_OCTETS(s). The header version octet of a
+ * housekeeping packet is TL_DL_HK_VERSION (2); the parser also reads
+ * version 1 (no acquisition block, TL_DL_HK_V1_OCTETS(s)).
  *
  * Splitting: each packet takes as many channels as fit the configured
  * maximum packet length (and TL_ENCODE_MAX_CHANNELS). The encoder is tried
@@ -76,6 +83,7 @@
 #include "tl_status.h"
 
 #define TL_DL_VERSION 1u
+#define TL_DL_HK_VERSION 2u /* housekeeping layout: 2 appends the acquisition block */
 #define TL_DL_KIND_SPECTRUM 1u
 #define TL_DL_KIND_HOUSEKEEPING 2u
 #define TL_DL_KIND_SK 3u
@@ -115,7 +123,9 @@
 
 /* housekeeping length for s = FFT stages + 1 counters per input */
 #define TL_DL_HK_INPUT_OCTETS(s) (4u + 8u + 8u + 4u + 4u * (s) + 4u * TL_ADC_HIST_BINS)
-#define TL_DL_HK_OCTETS(s) (44u + TL_MAX_INPUTS * TL_DL_HK_INPUT_OCTETS(s) + 48u)
+#define TL_DL_HK_V1_OCTETS(s) (44u + TL_MAX_INPUTS * TL_DL_HK_INPUT_OCTETS(s) + 48u)
+#define TL_DL_HK_ACQ_OCTETS 32u
+#define TL_DL_HK_OCTETS(s) (TL_DL_HK_V1_OCTETS(s) + TL_DL_HK_ACQ_OCTETS)
 
 /* Smallest allowed maximum packet length for the downlink: the header,
  * a one-octet bitmap and one channel's payload (encoding header + LZ4
@@ -265,11 +275,16 @@ typedef struct tl_dl_hk {
     uint32_t spectra, discarded, state_spectra[3];
     tl_dl_hk_input in[TL_MAX_INPUTS];
     uint32_t acc_sat[3][4];  /* [state][auto0, auto1, cross re, cross im] */
+    uint8_t has_acq;         /* 1 when the acquisition block is present (version 2) */
+    uint32_t blocks_seen, blocks_processed, blocks_dropped;
+    uint64_t samples_dropped;
+    uint32_t duty_ppm, gap_discarded, abandoned;
 } tl_dl_hk;
 
-/* Parse the user data of a housekeeping packet. Checks: version 1, kind 2,
- * inputs 1 .. 2, FFT counters 1 .. TL_MAX_FFT_STAGES + 1, and len exactly
- * TL_DL_HK_OCTETS(counters). Returns TL_OK, TL_E_NULL or TL_E_FORMAT;
+/* Parse the user data of a housekeeping packet. Checks: version 1 or 2,
+ * kind 2, inputs 1 .. 2, FFT counters 1 .. TL_MAX_FFT_STAGES + 1, and len
+ * exactly TL_DL_HK_V1_OCTETS(counters) (version 1: has_acq = 0, the
+ * acquisition fields 0) or TL_DL_HK_OCTETS(counters) (version 2). Returns TL_OK, TL_E_NULL or TL_E_FORMAT;
  * never reads beyond user[len - 1]; *h is written only on TL_OK. */
 tl_status tl_downlink_parse_hk(const uint8_t *user, size_t len, tl_dl_hk *h);
 

@@ -137,3 +137,37 @@ $(BUILD)/rel/test_cross $(BUILD)/san/test_cross $(BUILD)/rel/test_link $(BUILD)/
 .PHONY: cross
 cross: $(HIL_RUNNERS) $(BUILD)/rel/test_cross ## build the vector runner for host, Cortex-M7, PowerPC and compare all vectors
 	@bash tests/run_suite.sh $(BUILD)/rel test_cross
+
+# ---- processing budget: per-stage cost on the Cortex-M7 (docs/performance.md) ----
+# The default scenario's configuration (8192 points) needs its own maxima;
+# the program is timed under QEMU with -icount shift=0 (1 ns per instruction)
+# and run twice: the counts must repeat exactly.
+M7C_B := $(HIL_B)/m7cost
+M7C_CFLAGS := $(FW_CFLAGS) $(M7_ARCH) -DTL_MAX_POINTS=8192u -DTL_MAX_TAPS=4u -ffunction-sections -fdata-sections
+M7C_QEMU := qemu-system-arm -M mps2-an500 -icount shift=0 -semihosting-config enable=on,target=native \
+            -display none -monitor none -serial none -nodefaults -kernel
+$(M7C_B)/fw/%.o: firmware/%.c $(HIL_HEADERS) | $(HIL_B)/tools-ok
+	@mkdir -p $(@D)
+	$(M7_CC) $(M7C_CFLAGS) -Ifirmware -c $< -o $@
+$(M7C_B)/hil/%.o: hil/m7/%.c $(HIL_HEADERS) | $(HIL_B)/tools-ok
+	@mkdir -p $(@D)
+	$(M7_CC) $(M7C_CFLAGS) -Ifirmware -Ihil -Ihil/m7 -c $< -o $@
+M7C_OBJS := $(patsubst firmware/%.c,$(M7C_B)/fw/%.o,$(FW_SRC)) \
+            $(patsubst hil/m7/%.c,$(M7C_B)/hil/%.o,hil/m7/startup.c hil/m7/semihost.c hil/m7/cost_main.c)
+$(M7C_B)/stage-cost.elf: $(M7C_OBJS) hil/m7/m7.ld
+	$(M7_CC) $(M7_ARCH) -nostdlib -T hil/m7/m7.ld -Wl,--gc-sections $(M7C_OBJS) -lc -lgcc -o $@
+
+.PHONY: processing-budget
+processing-budget: $(M7C_B)/stage-cost.elf ## per-stage instructions on the Cortex-M7 (qemu -icount, run twice) into docs/m7-stage-cost.txt
+	@for run in 1 2; do timeout 600 $(M7C_QEMU) $< 2>$(M7C_B)/run$$run.txt >/dev/null || { cat $(M7C_B)/run$$run.txt; exit 1; }; done
+	@grep '^cost ' $(M7C_B)/run1.txt > $(M7C_B)/cost1.txt; grep '^cost ' $(M7C_B)/run2.txt > $(M7C_B)/cost2.txt
+	@cmp -s $(M7C_B)/cost1.txt $(M7C_B)/cost2.txt || { echo "processing budget FAILED: the two runs differ"; \
+	    diff $(M7C_B)/cost1.txt $(M7C_B)/cost2.txt; exit 1; }
+	@cp $(M7C_B)/cost1.txt docs/m7-stage-cost.txt
+	@echo "Cortex-M7 stage cost (qemu-system-arm -icount shift=0, two runs identical) -> docs/m7-stage-cost.txt:"; \
+	    cat docs/m7-stage-cost.txt
+# tests/test_acquisition.c runs the program twice under qemu (it skips, saying
+# so, only where qemu-system-arm is absent)
+ifneq ($(shell command -v qemu-system-arm 2>/dev/null),)
+$(BUILD)/rel/test_acquisition $(BUILD)/san/test_acquisition $(BUILD)/cov/test_acquisition: | $(M7C_B)/stage-cost.elf
+endif

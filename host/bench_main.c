@@ -62,6 +62,7 @@
 #include "sky_noise.h"
 #include "taps_design.h"
 #include "tl_chain.h"
+#include "tl_downlink.h"
 
 static double now_s(void)
 {
@@ -230,6 +231,8 @@ __attribute__((noipa)) void bench_stage_detect(stage_data *d);
 __attribute__((noipa)) void bench_stage_integrate(stage_data *d);
 __attribute__((noipa)) void bench_stage_radix2(stage_data *d);
 __attribute__((noipa)) void bench_stage_chain(tl_chain *c, const int16_t *x, size_t n);
+__attribute__((noipa)) void bench_stage_encode(const tl_product *p, tl_encode *e, uint8_t *out, size_t cap);
+__attribute__((noipa)) void bench_stage_downlink(const tl_product *p, tl_downlink *d);
 
 void bench_stage_pfb(stage_data *d)
 {
@@ -275,6 +278,36 @@ void bench_stage_chain(tl_chain *c, const int16_t *x, size_t n)
     size_t used = 0;
     if (tl_chain_push(c, x, NULL, n, &used) != TL_OK || used != n) {
         fprintf(stderr, "tl-bench: chain push\n");
+        exit(1);
+    }
+}
+
+/* Encoding: the product's auto-power sums (one input) in pieces of
+ * TL_ENCODE_MAX_CHANNELS, lossless with bit planes as the default downlink. */
+void bench_stage_encode(const tl_product *p, tl_encode *e, uint8_t *out, size_t cap)
+{
+    for (uint32_t c0 = 0; c0 < p->channels; c0 += TL_ENCODE_MAX_CHANNELS) {
+        const uint32_t n = p->channels - c0 < TL_ENCODE_MAX_CHANNELS ? p->channels - c0 : TL_ENCODE_MAX_CHANNELS;
+        size_t w = 0;
+        if (tl_encode_lossless_u64(e, &p->auto_power[0][c0], n, TL_ENCODE_BIT_PLANES, out, cap, &w) != TL_OK) {
+            fprintf(stderr, "tl-bench: encode\n");
+            exit(1);
+        }
+    }
+}
+
+static void null_sink(void *user, const uint8_t *packet, size_t len)
+{
+    (void)packet;
+    *(size_t *)user += len;
+}
+
+/* The whole downlink of the product: encoding, headers, CRC-16, time. */
+void bench_stage_downlink(const tl_product *p, tl_downlink *d)
+{
+    size_t octets = 0;
+    if (tl_downlink_product(d, p, 1, null_sink, &octets) != TL_OK) {
+        fprintf(stderr, "tl-bench: downlink\n");
         exit(1);
     }
 }
@@ -375,6 +408,29 @@ static int callgrind_workload(uint32_t channels)
     if (tl_chain_push(c, x, NULL, (size_t)warm * cs.points, &used) != TL_OK)
         return 1;
     bench_stage_chain(c, x + (size_t)warm * cs.points, (size_t)CG_FRAMES * cs.points);
+    /* the product of the same frames, then its encoding and its downlink */
+    chain_setup ps = cs;
+    ps.cfg.integration = CG_FRAMES;
+    ps.cfg.det_shift = tl_config_det_shift(&cs.cfg);
+    tl_chain *pc = open_chain(&ps);
+    tl_product *prod = xmalloc(sizeof *prod);
+    if (tl_chain_push(pc, x, NULL, n, &used) != TL_OK || !tl_chain_ready(pc) || tl_chain_take(pc, prod) != TL_OK)
+        return 1;
+    tl_encode *enc = xmalloc(sizeof *enc);
+    const size_t cap = TL_ENCODE_LOSSLESS_BOUND(TL_ENCODE_MAX_CHANNELS);
+    uint8_t *out = xmalloc(cap);
+    tl_downlink *dl = xmalloc(sizeof *dl);
+    tl_downlink_config dc;
+    tl_downlink_config_default(&dc);
+    if (tl_downlink_init(dl, &dc) != TL_OK)
+        return 1;
+    bench_stage_encode(prod, enc, out, cap);
+    bench_stage_downlink(prod, dl);
+    free(dl);
+    free(out);
+    free(enc);
+    free(prod);
+    free(pc);
     free(c);
     close_stages(&d);
     free(x);
@@ -382,9 +438,10 @@ static int callgrind_workload(uint32_t channels)
     return 0;
 }
 
-static const char *const cg_names[] = { "bench_stage_pfb", "bench_stage_fft", "bench_stage_detect",
-                                        "bench_stage_integrate", "bench_stage_radix2", "bench_stage_chain" };
-#define CG_N 6
+static const char *const cg_names[] = { "bench_stage_pfb",       "bench_stage_fft",   "bench_stage_detect",
+                                        "bench_stage_integrate", "bench_stage_radix2", "bench_stage_chain",
+                                        "bench_stage_encode",    "bench_stage_downlink" };
+#define CG_N 8
 
 /* Run the workload under callgrind once; Ir per function (inclusive) into ir[]. */
 static int callgrind_once(const char *self, const char *dir, uint32_t channels, int run, double ir[CG_N])
@@ -588,13 +645,19 @@ static void print_chain(json_t *root, const chain_row *rows, int nrows)
             printf(" not measured\n");
             continue;
         }
-        static const int order[6] = { 0, 1, 2, 3, 4, 5 };
         int same = 1;
         for (int k = 0; k < CG_N; k++) {
-            printf(" %8.3f | %8.3f", rows[i].ir[0][order[k]], rows[i].ir[1][order[k]]);
+            if (k < 6)
+                printf(" %8.3f | %8.3f", rows[i].ir[0][k], rows[i].ir[1][k]);
             same &= rows[i].ir[0][k] == rows[i].ir[1][k];
         }
         printf(" %s\n", same ? "identical" : "DIFFERENT");
+        /* encoding and packets: per sample of the product of the CG_FRAMES frames
+         * (a longer integration spreads them over more samples) */
+        printf("%-9s encoding %8.3f | %8.3f, packets (downlink - encoding) %8.3f | %8.3f per sample of a %u-frame "
+               "product\n",
+               "", rows[i].ir[0][6], rows[i].ir[1][6], rows[i].ir[0][7] - rows[i].ir[0][6],
+               rows[i].ir[1][7] - rows[i].ir[1][6], CG_FRAMES);
     }
     json_t *arr = json_array();
     for (int i = 0; i < nrows; i++) {

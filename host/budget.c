@@ -7,6 +7,7 @@
 
 #include <jansson.h>
 
+#include "acquisition.h"
 #include "atomic_file.h"
 #include "rng.h"
 #include "run.h"
@@ -182,12 +183,28 @@ int tl_budget_compute(const tl_scenario *s, tl_budget *b, char *err, size_t cap)
     b->margin_allocation = (s->bud_alloc_bytes_day - b->peak_per_earth_day) / s->bud_alloc_bytes_day;
     b->margin_link = (b->capacity_per_earth_day - b->peak_per_earth_day) / b->capacity_per_earth_day;
     b->margin_storage = (s->bud_storage_bytes - b->storage_needed) / s->bud_storage_bytes;
-    b->closed = b->margin_allocation >= 0.0 && b->margin_link >= 0.0 && b->margin_storage >= 0.0;
+    tl_budget_processing(s, b);
+    b->closed = b->margin_allocation >= 0.0 && b->margin_link >= 0.0 && b->margin_storage >= 0.0 && b->headroom >= 0.0;
     rc = 0;
 out:
     free(p);
     free(f);
     return rc;
+}
+
+void tl_budget_processing(const tl_scenario *s, tl_budget *b)
+{
+    b->ips_total = 0.0;
+    for (uint32_t i = 0; i < TL_ACQ_STAGES; i++) {
+        b->ips[i] = s->proc_ips[i];
+        b->ips_total += s->proc_ips[i];
+    }
+    b->instr_per_s = b->ips_total * s->sky.sample_rate_hz;
+    b->cycles_per_s = b->instr_per_s * s->proc_cpi;
+    b->clock_hz = s->proc_clock_hz;
+    b->load = b->cycles_per_s / b->clock_hz;
+    b->realtime_fraction = b->load > 1.0 ? 1.0 / b->load : 1.0;
+    b->headroom = 1.0 - b->load;
 }
 
 static double ratio(const tl_dl_result *d)
@@ -229,6 +246,17 @@ void tl_budget_print(FILE *out, const tl_scenario *s, const tl_budget *b)
             s->bud_storage_bytes / 1e6, 100.0 * b->margin_storage);
     fprintf(out, "  (link %.1f kbit/s, a %.2f h pass every %.1f h)\n", s->bud_rate_bps / 1e3, s->bud_pass_h,
             s->bud_contact_h);
+    fprintf(out, "processing at %.3f Msample/s (instructions per sample instant, all inputs; [processor]):\n",
+            s->sky.sample_rate_hz / 1e6);
+    for (uint32_t i = 0; i < TL_ACQ_STAGES; i++)
+        fprintf(out, "  %-12s %10.3f instructions/sample %8.1f%%\n", tl_acq_stage_names[i], b->ips[i],
+                b->ips_total > 0.0 ? 100.0 * b->ips[i] / b->ips_total : 0.0);
+    fprintf(out, "  %-12s %10.3f instructions/sample = %.4g instructions/s x CPI %.2f = %.4g cycles/s\n", "total",
+            b->ips_total, b->instr_per_s, s->proc_cpi, b->cycles_per_s);
+    fprintf(out, "  %-34s %9.4g Hz %9.4g Hz %+7.1f%%\n", "processor cycles per second", b->cycles_per_s, b->clock_hz,
+            100.0 * b->headroom);
+    fprintf(out, "  load %.4f: sustainable real-time fraction %.4f, headroom %+.1f%%\n", b->load,
+            b->realtime_fraction, 100.0 * b->headroom);
     if (b->closed)
         fprintf(out, "budget: CLOSED (every margin >= 0)\n");
     else
@@ -261,6 +289,18 @@ int tl_budget_write_json(const char *path, const tl_scenario *s, const tl_budget
     json_object_set_new(root, "kurtosis_blocks_per_product", json_integer(b->sk_blocks_flight));
     json_object_set_new(root, "kurtosis_octets_per_block", json_real(b->sk_octets_per_block));
     json_object_set_new(root, "link_octets_per_product", json_real(b->link_octets));
+    json_t *pr = json_object(), *st = json_object();
+    for (uint32_t i = 0; i < TL_ACQ_STAGES; i++)
+        json_object_set_new(st, tl_acq_stage_names[i], json_real(b->ips[i]));
+    json_object_set_new(pr, "instructions_per_sample", st);
+    json_object_set_new(pr, "instructions_per_sample_total", json_real(b->ips_total));
+    json_object_set_new(pr, "instructions_per_s", json_real(b->instr_per_s));
+    json_object_set_new(pr, "cycles_per_s", json_real(b->cycles_per_s));
+    json_object_set_new(pr, "clock_hz", json_real(b->clock_hz));
+    json_object_set_new(pr, "load", json_real(b->load));
+    json_object_set_new(pr, "realtime_fraction", json_real(b->realtime_fraction));
+    json_object_set_new(pr, "headroom", json_real(b->headroom));
+    json_object_set_new(root, "processing", pr);
     json_object_set_new(root, "frame_efficiency", json_real(b->frame_efficiency));
     json_object_set_new(root, "rate_bps", json_real(b->rate_bps));
     json_object_set_new(root, "octets_per_hour", json_real(b->per_hour));

@@ -29,6 +29,15 @@
  * 29.530589 days, common practice, no source; night and day half each).
  * The budget closes when the peak volume per Earth day fits the allocation
  * and the link time, and the volume between passes fits the storage.
+ *
+ * Processing budget (tl_budget_processing, no simulation): the
+ * instructions per sample instant of each stage ([processor], measured on
+ * the Cortex-M7 build, docs/performance.md) times the sample rate give the
+ * instructions per second the chain needs; times cycles per instruction,
+ * the cycles per second; against the clock, the load rho = need / clock,
+ * the sustainable real-time fraction min(1, 1 / rho) and the headroom
+ * 1 - rho (negative: the processor cannot keep up). The budget closes only
+ * when the headroom is >= 0 as well.
  */
 #ifndef TL_HOST_BUDGET_H
 #define TL_HOST_BUDGET_H
@@ -57,8 +66,18 @@ typedef struct tl_budget {
     double link_hours_needed;      /* per Earth day at the peak */
     double storage_needed;         /* octets accumulated between passes at the peak rate */
     double margin_allocation, margin_link, margin_storage; /* (available - need) / available */
+    /* processing */
+    double ips[6];                 /* instructions per sample instant by stage (acquisition.h names) */
+    double ips_total;
+    double instr_per_s, cycles_per_s, clock_hz;
+    double load;                   /* cycles per second needed / clock */
+    double realtime_fraction;      /* min(1, 1 / load) */
+    double headroom;               /* 1 - load */
     int closed;
 } tl_budget;
+
+/* The processing figures of s into b (the fields under "processing"). */
+void tl_budget_processing(const tl_scenario *s, tl_budget *b);
 
 /* Simulate, packetise and compute. Returns 0, or -1 with one line in err. */
 int tl_budget_compute(const tl_scenario *s, tl_budget *b, char *err, size_t cap);

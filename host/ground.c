@@ -487,6 +487,13 @@ static void stats_from_hk(tl_product *p, const tl_dl_hk *h)
         p->cal[0].acc_sat[q] = h->acc_sat[1][q];
         p->cal[1].acc_sat[q] = h->acc_sat[2][q];
     }
+    if (h->has_acq) {
+        p->acq.blocks_kept = h->blocks_processed;
+        p->acq.blocks_lost = h->blocks_dropped;
+        p->acq.samples_lost = h->samples_dropped;
+        p->acq.gap_discarded = h->gap_discarded;
+        p->acq.abandoned = h->abandoned;
+    }
 }
 
 static void ring_add(tl_ground *g, uint32_t config_id, uint32_t index)
@@ -900,6 +907,18 @@ static void log_hk(tl_ground *g, const tl_dl_hk *h, uint64_t off)
         json_object_set_new(acc, state_names[s], a);
     }
     json_object_set_new(o, "accumulator_saturations", acc);
+    json_object_set_new(o, "hk_version", json_integer(h->version));
+    if (h->has_acq) {
+        json_t *aq = json_object();
+        json_object_set_new(aq, "capture_blocks_seen", json_integer(h->blocks_seen));
+        json_object_set_new(aq, "capture_blocks_processed", json_integer(h->blocks_processed));
+        json_object_set_new(aq, "capture_blocks_dropped", json_integer(h->blocks_dropped));
+        json_object_set_new(aq, "samples_dropped", json_u64(h->samples_dropped));
+        json_object_set_new(aq, "duty_ppm", json_integer(h->duty_ppm));
+        json_object_set_new(aq, "gap_discarded_spectra", json_integer(h->gap_discarded));
+        json_object_set_new(aq, "abandoned_samples", json_integer(h->abandoned));
+        json_object_set_new(o, "acquisition", aq);
+    }
     char *js = json_dumps(o, JSON_COMPACT);
     json_decref(o);
     if (js == NULL) {

@@ -121,6 +121,20 @@ void tl_report_print(FILE *out, const char *command, const tl_scenario *s, const
         }
         fprintf(out, "%s\n", shown == 8u ? ", ..." : "");
     }
+    if (r->acq.done) {
+        const tl_acq_report *aq = &r->acq;
+        fprintf(out, "acquisition (%.0f MHz clock, CPI %.2f, %.2f instructions/sample, blocks of %u samples, %u buffers):\n",
+                s->proc_clock_hz / 1e6, s->proc_cpi,
+                s->proc_ips[0] + s->proc_ips[1] + s->proc_ips[2] + s->proc_ips[3] + s->proc_ips[4] + s->proc_ips[5],
+                s->proc_block, s->proc_buffers);
+        fprintf(out, "  load %.4f; duty cycle predicted %.4f (closed form %llu of %llu blocks), experienced %.4f "
+                     "(%llu processed, %llu dropped)\n",
+                aq->load, aq->predicted_duty, (unsigned long long)aq->predicted_kept, (unsigned long long)aq->blocks,
+                aq->experienced_duty, (unsigned long long)aq->kept, (unsigned long long)aq->dropped);
+        fprintf(out, "  %u antenna spectra integrated (%.4f s effective of %.4f s), %u discarded at gaps%s\n",
+                aq->antenna_spectra, aq->effective_s, aq->span_s, aq->gap_discarded,
+                aq->dropped ? "; the packets carry this product" : "");
+    }
     if (r->dl.done) {
         const tl_dl_result *d = &r->dl;
         const uint64_t pk = d->octets_science + d->octets_hk + d->octets_sk;
@@ -270,6 +284,22 @@ int tl_report_write_json(const char *path, const tl_scenario *s, const tl_run_re
         json_object_set_new(o, "masked_channels", chs);
         json_object_set_new(o, "masked_mhz", mhz);
         json_object_set_new(root, "spectral_kurtosis", o);
+    }
+    if (r->acq.done) {
+        const tl_acq_report *a = &r->acq;
+        json_t *o = json_object();
+        json_object_set_new(o, "load", json_real(a->load));
+        json_object_set_new(o, "duty_predicted", json_real(a->predicted_duty));
+        json_object_set_new(o, "duty_experienced", json_real(a->experienced_duty));
+        json_object_set_new(o, "blocks", json_integer((json_int_t)a->blocks));
+        json_object_set_new(o, "blocks_processed", json_integer((json_int_t)a->kept));
+        json_object_set_new(o, "blocks_dropped", json_integer((json_int_t)a->dropped));
+        json_object_set_new(o, "blocks_processed_predicted", json_integer((json_int_t)a->predicted_kept));
+        json_object_set_new(o, "gap_discarded_spectra", json_integer((json_int_t)a->gap_discarded));
+        json_object_set_new(o, "antenna_spectra", json_integer((json_int_t)a->antenna_spectra));
+        json_object_set_new(o, "effective_integration_s", json_real(a->effective_s));
+        json_object_set_new(o, "span_s", json_real(a->span_s));
+        json_object_set_new(root, "acquisition", o);
     }
     if (r->dl.done) {
         const tl_dl_result *d = &r->dl;

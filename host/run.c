@@ -198,6 +198,41 @@ tl_status tl_run_with_source(const tl_scenario *s, tl_fid_source source, void (*
     return st;
 }
 
+/* The processor-speed model's pass: the chain alone through the capture
+ * blocks the model keeps. Nothing dropped: the same samples through the
+ * same chain give the fidelity product's sums (checked), which then
+ * carries the acquisition counters. Blocks dropped: the packets carry the
+ * experienced product. */
+static tl_status run_acquisition(const tl_scenario *s, tl_run_result *r)
+{
+    tl_product *p = malloc(sizeof *p);
+    if (p == NULL)
+        return TL_E_NULL;
+    tl_status st = tl_acq_run(s, p, &r->acq);
+    if (st != TL_OK) {
+        free(p);
+        return st;
+    }
+    tl_product *out = &r->fid.product;
+    if (r->acq.dropped == 0u) {
+        if (memcmp(p->auto_power, out->auto_power, sizeof p->auto_power) != 0 ||
+            memcmp(p->cross_re, out->cross_re, sizeof p->cross_re) != 0 || p->antenna_spectra != out->antenna_spectra) {
+            free(p);
+            return TL_E_FORMAT;
+        }
+        out->acq = p->acq;
+        free(p);
+    } else {
+        r->experienced = p;
+        out = p;
+    }
+    char why[512];
+    if (tl_downlink_out_make_all(s, out, r->sk.blocks, r->sk.nblocks, &r->dl, NULL, NULL, NULL, NULL, why,
+                                 sizeof why) != 0)
+        return TL_E_ENCODING;
+    return TL_OK;
+}
+
 tl_status tl_run_scenario(const tl_scenario *s, tl_run_result *r, void (*progress)(void *, uint32_t, uint32_t),
                           void *progress_ctx)
 {
@@ -227,6 +262,8 @@ tl_status tl_run_scenario(const tl_scenario *s, tl_run_result *r, void (*progres
                 st = TL_E_ENCODING;
         }
     }
+    if (st == TL_OK && s->proc_model)
+        st = run_acquisition(s, r);
     return st;
 }
 
@@ -236,6 +273,8 @@ void tl_run_release(tl_run_result *r)
         return;
     free(r->sk.blocks);
     r->sk.blocks = NULL;
+    free(r->experienced);
+    r->experienced = NULL;
     for (uint32_t i = 0; i < TL_MAX_INPUTS; i++) {
         free(r->sk.flag_count[i]);
         r->sk.flag_count[i] = NULL;
@@ -254,6 +293,7 @@ tl_status tl_run_kurtosis(const tl_scenario *s, tl_product *p, tl_sk_report *sk)
         sk->flag_count[i] = calloc(s->cfg.points / 2u, sizeof *sk->flag_count[i]);
     if (sk->blocks == NULL || sk->flag_count[0] == NULL || (s->cfg.inputs == 2u && sk->flag_count[1] == NULL)) {
         tl_run_result tmp;
+        tmp.experienced = NULL;
         tmp.sk = *sk;
         tl_run_release(&tmp);
         memset(sk, 0, sizeof *sk);
@@ -262,6 +302,7 @@ tl_status tl_run_kurtosis(const tl_scenario *s, tl_product *p, tl_sk_report *sk)
     const tl_status st = run_chain(s, p, sk->blocks, max_blocks, &sk->nblocks);
     if (st != TL_OK) {
         tl_run_result tmp;
+        tmp.experienced = NULL;
         tmp.sk = *sk;
         tl_run_release(&tmp);
         memset(sk, 0, sizeof *sk);
@@ -275,6 +316,7 @@ tl_status tl_run_kurtosis(const tl_scenario *s, tl_product *p, tl_sk_report *sk)
     sk->n = nacc;
     if (tl_sk_thresholds(m, nacc, s->sk_false_alarm, &sk->lo, &sk->hi) != 0) {
         tl_run_result tmp;
+        tmp.experienced = NULL;
         tmp.sk = *sk;
         tl_run_release(&tmp);
         memset(sk, 0, sizeof *sk);

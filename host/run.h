@@ -8,6 +8,7 @@
 #include "fidelity.h"
 #include "scenario.h"
 
+#include "acquisition.h"
 #include "calibrate.h"
 #include "downlink_out.h"
 
@@ -52,6 +53,9 @@ typedef struct tl_run_result {
     tl_cal_report cal;
     tl_dl_result dl;              /* the product's packets and frames (downlink_out.h) */
     tl_sk_report sk;              /* spectral kurtosis, when the scenario asks */
+    tl_acq_report acq;            /* the processor-speed model's pass ([processor] model = true) */
+    tl_product *experienced;      /* that pass's product when it dropped blocks (malloc'd; the packets carry
+                                   * it), else NULL: nothing dropped, the fidelity product carries its counters */
 } tl_run_result;
 
 /* Free what a run allocated inside r (the kurtosis blocks); r itself stays. */

@@ -111,7 +111,7 @@ int tl_run_outputs_write(const char *dir, const tl_scenario *s, const tl_run_res
     if (r->cal.done && tl_run_outputs_calibrated(dir, s, &r->fid.product, &r->cal, err, cap) != 0)
         return -1;
     tl_dl_result dl;
-    return tl_downlink_out_write(dir, s, &r->fid.product, r->sk.blocks, r->sk.nblocks, &dl, err, cap);
+    return tl_downlink_out_write(dir, s, r->experienced ? r->experienced : &r->fid.product, r->sk.blocks, r->sk.nblocks, &dl, err, cap);
 }
 
 int tl_run_outputs_calibrated(const char *dir, const tl_scenario *s, const tl_product *p, const tl_cal_report *c,

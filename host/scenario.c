@@ -191,6 +191,28 @@ static const key_def keys[] = {
       "Fraction of the lunar night spent observing." },
     { "budget", "day_fraction", K_REAL, OFF(bud_day_fraction), 0, 0, 1, 1, NULL, 0, "",
       "Fraction of the lunar day spent observing." },
+    { "processor", "model", K_BOOL, OFF(proc_model), 0, 0, 1, 1, NULL, 0, "",
+      "Drive the chain through the processor-speed model: blocks that arrive while it is busy are dropped." },
+    { "processor", "clock_mhz", K_REAL, OFF(proc_clock_hz), 0, 1, 1e7, 1e6, NULL, 0, "MHz",
+      "Processor clock (or the equivalent instruction rate of several cores at CPI 1)." },
+    { "processor", "cycles_per_instruction", K_REAL, OFF(proc_cpi), 0, 0.1, 100, 1, NULL, 0, "",
+      "Average cycles per instruction of the target (1 = one instruction per cycle)." },
+    { "processor", "capture_block", K_U32, OFF(proc_block), 0, 256, 1048576, 1, NULL, 0, "samples",
+      "Samples per input in one ADC capture block (a multiple of 2 x channels)." },
+    { "processor", "buffers", K_U32, OFF(proc_buffers), 0, 1, 64, 1, NULL, 0, "",
+      "Capture buffers: a block that arrives when all are taken is dropped." },
+    { "processor", "filterbank_ips", K_REAL, OFF(proc_ips[0]), 0, 0, 1e6, 1, NULL, 0, "instructions/sample",
+      "Filterbank instructions per sample instant, all inputs (docs/performance.md, Cortex-M7 figures)." },
+    { "processor", "fft_ips", K_REAL, OFF(proc_ips[1]), 0, 0, 1e6, 1, NULL, 0, "instructions/sample",
+      "FFT instructions per sample instant, all inputs." },
+    { "processor", "detection_ips", K_REAL, OFF(proc_ips[2]), 0, 0, 1e6, 1, NULL, 0, "instructions/sample",
+      "Detection (power and cross-power) instructions per sample instant." },
+    { "processor", "integration_ips", K_REAL, OFF(proc_ips[3]), 0, 0, 1e6, 1, NULL, 0, "instructions/sample",
+      "Integration instructions per sample instant." },
+    { "processor", "encoding_ips", K_REAL, OFF(proc_ips[4]), 0, 0, 1e6, 1, NULL, 0, "instructions/sample",
+      "Payload encoding instructions per sample instant (one product's encoding over its samples)." },
+    { "processor", "packets_ips", K_REAL, OFF(proc_ips[5]), 0, 0, 1e6, 1, NULL, 0, "instructions/sample",
+      "Packet writing instructions per sample instant (headers, CRC, time; over the product's samples)." },
     { "output", "folder", K_TEXT, OFF(folder), SZ(folder), 1, TL_SCENARIO_PATH_MAX - 1, 1, NULL, 0, "",
       "Folder for the outputs (created if missing; -o overrides)." },
     { "output", "csv", K_BOOL, OFF(write_csv), 0, 0, 1, 1, NULL, 0, "", "Write the spectra as CSV." },
@@ -200,7 +222,7 @@ static const key_def keys[] = {
 
 static const char *const sections[] = { "scenario", "instrument", "integration", "sky",      "interference",
                                         "fidelity", "switching",   "fit",         "flagging", "downlink",
-                                        "budget",   "output" };
+                                        "budget",   "processor", "output" };
 #define NSECTIONS (sizeof sections / sizeof sections[0])
 
 /* Fields that other keys determine. */
@@ -252,6 +274,24 @@ void tl_scenario_nominal(tl_scenario *s)
     s->bud_storage_bytes = 256e6;
     s->bud_night_fraction = 1.0;
     s->bud_day_fraction = 0.0;
+    s->proc_model = 1;
+    /* An equivalent instruction rate that keeps up with 102.4 Msample/s
+     * (load 0.65): one Cortex-M7 at 600 MHz would sustain 0.46 % of it
+     * (docs/performance.md, "Processing budget"). */
+    s->proc_clock_hz = 200e9;
+    s->proc_cpi = 1.0;
+    s->proc_block = 65536u;
+    s->proc_buffers = 2u;
+    /* PROC_IPS_BEGIN: measured on the Cortex-M7 build (make processing-budget ->
+     * docs/m7-stage-cost.txt: the per-sample figures / 1000; encoding and
+     * packets: instructions per product / (8192 spectra x 8192 points)) */
+    s->proc_ips[0] = 248.112;
+    s->proc_ips[1] = 901.176;
+    s->proc_ips[2] = 82.018;
+    s->proc_ips[3] = 31.010;
+    s->proc_ips[4] = 0.332;
+    s->proc_ips[5] = 1.846;
+    /* PROC_IPS_END */
     sync_derived(s);
 }
 
@@ -862,6 +902,9 @@ static int check_relations(const tl_scenario *s, const char *path, const int *li
         return fail_key(s, path, lines, "instrument", "fft_scaling", err, cap,
                         "must be auto or at most 0x%X for %u channels (one bit per binary stage plus the split)",
                         (1u << (m + 1u)) - 1u, channels);
+    if (s->proc_block % s->cfg.points != 0u)
+        return fail_key(s, path, lines, "processor", "capture_block", err, cap,
+                        "must be a multiple of 2 x channels = %u samples", s->cfg.points);
     if (s->sky.lowpass_hz <= s->sky.highpass_hz)
         return fail_key(s, path, lines, "sky", "lowpass_mhz", err, cap, "must be above highpass_mhz = %g MHz",
                         s->sky.highpass_hz / 1e6);

@@ -3,7 +3,7 @@
  *
  * A scenario file is INI (parsed with Debian's inih), one section per
  * concern: [scenario], [instrument], [integration], [sky], [interference],
- * [fidelity], [switching], [fit], [flagging], [downlink], [budget], [output]. Every key is optional (the built-in default fills
+ * [fidelity], [switching], [fit], [flagging], [downlink], [budget], [processor], [output]. Every key is optional (the built-in default fills
  * it in), every given key is checked for type and range, and unknown
  * sections or keys, repeated keys, indented continuation lines, lines
  * longer than 199 characters, text after a section header, "key: value",
@@ -64,6 +64,14 @@ typedef struct tl_scenario {
     double bud_alloc_bytes_day; /* data volume allocated to the instrument per Earth day */
     double bud_storage_bytes; /* onboard storage for the instrument */
     double bud_night_fraction, bud_day_fraction; /* observing time per lunar night / day */
+    /* [processor]: the processor-speed model (acquisition.h, docs/acquisition.md) */
+    unsigned proc_model;      /* 1: `tidelock run` drives the chain through the model */
+    double proc_clock_hz;     /* processor clock */
+    double proc_cpi;          /* cycles per instruction */
+    uint32_t proc_block;      /* capture block, samples per input (a multiple of 2 x channels) */
+    uint32_t proc_buffers;    /* capture buffers */
+    double proc_ips[6];       /* instructions per sample instant (all inputs) by stage: filterbank, fft,
+                               * detection, integration, encoding, packets */
 } tl_scenario;
 
 /* The built-in default (docs/scenario-default.ini): the dark-ages band of

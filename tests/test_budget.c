@@ -121,6 +121,32 @@ static void test_same_packets_as_run(void **state)
     free(r);
 }
 
+/* The processing budget: stage costs x sample rate x CPI against the clock
+ * (exact arithmetic on the scenario's own values; definitions in budget.h). */
+static void test_processing_budget(void **state)
+{
+    (void)state;
+    tl_scenario s;
+    tl_scenario_default(&s);
+    tl_budget b;
+    memset(&b, 0, sizeof b);
+    tl_budget_processing(&s, &b);
+    const double I = 248.112 + 901.176 + 82.018 + 31.010 + 0.332 + 1.846; /* the [processor] defaults */
+    TL_ASSERT_NEAR(b.ips_total, I, 1e-9);
+    TL_ASSERT_NEAR(b.instr_per_s, I * 102.4e6, 1e-3);
+    TL_ASSERT_NEAR(b.cycles_per_s, I * 102.4e6, 1e-3);
+    TL_ASSERT_NEAR(b.load, I * 102.4e6 / 200e9, 1e-12);
+    TL_ASSERT_NEAR(b.headroom, 1.0 - I * 102.4e6 / 200e9, 1e-12);
+    TL_ASSERT_NEAR(b.realtime_fraction, 1.0, 0.0);
+    /* one Cortex-M7 at 600 MHz: the fraction it sustains, and no headroom */
+    s.proc_clock_hz = 600e6;
+    s.proc_cpi = 1.5;
+    tl_budget_processing(&s, &b);
+    TL_ASSERT_NEAR(b.cycles_per_s, I * 102.4e6 * 1.5, 1e-3);
+    TL_ASSERT_NEAR(b.realtime_fraction, 600e6 / (I * 102.4e6 * 1.5), 1e-15);
+    assert_true(b.headroom < 0.0);
+}
+
 static void test_cli(void **state)
 {
     (void)state;
@@ -142,7 +168,22 @@ static void test_cli(void **state)
     assert_non_null(j);
     assert_true(json_is_true(json_object_get(j, "closed")));
     assert_int_equal(json_integer_value(json_object_get(j, "flight_spectra")), 1048576);
+    json_t *pr = json_object_get(j, "processing");
+    assert_non_null(pr);
+    TL_ASSERT_NEAR(json_real_value(json_object_get(pr, "headroom")),
+                   1.0 - 1264.494 * 102.4e6 / 200e9, 1e-9); /* the default processor */
     json_decref(j);
+    /* a processor too slow for the sample rate opens the budget */
+    f = fopen(ini, "w");
+    fputs("[instrument]\nchannels = 512\n[integration]\nspectra = 1024\n[fidelity]\nblocks = 16\n"
+          "extrapolate_to = 1048576\n[budget]\nallocation_mb_per_day = 1000\nlink_rate_kbps = 1000\nstorage_mb = 1000\n"
+          "[processor]\nclock_mhz = 600\n",
+          f);
+    fclose(f);
+    snprintf(args, sizeof args, "budget %s", ini);
+    assert_int_equal(tl_test_tool(argv0, args, out, sizeof out), 1);
+    assert_non_null(strstr(out, "sustainable real-time fraction 0.0046"));
+    assert_non_null(strstr(out, "budget: OPEN"));
     /* an allocation of 1 kB per day cannot close: exit 1, OPEN, a negative margin */
     f = fopen(ini, "w");
     fputs("[instrument]\nchannels = 512\n[integration]\nspectra = 1024\n[fidelity]\nblocks = 16\n"
@@ -172,6 +213,7 @@ int main(int argc, char **argv)
         cmocka_unit_test(test_volumes_follow_from_packets),
         cmocka_unit_test(test_flight_length_effect),
         cmocka_unit_test(test_same_packets_as_run),
+        cmocka_unit_test(test_processing_budget),
         cmocka_unit_test(test_cli),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

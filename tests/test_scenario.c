@@ -185,6 +185,13 @@ static void assert_scenario_equal(const tl_scenario *a, const tl_scenario *b, co
     SAME_S(folder);
     SAME_U(write_csv);
     SAME_U(write_npy);
+    SAME_U(proc_model);
+    SAME_D(proc_clock_hz);
+    SAME_D(proc_cpi);
+    SAME_U(proc_block);
+    SAME_U(proc_buffers);
+    for (int i_ = 0; i_ < 6; i_++)
+        SAME_D(proc_ips[i_]);
 }
 
 /* ---- 1. the committed default file ---------------------------------------- */
@@ -288,6 +295,13 @@ static void modified(tl_scenario *s)
     s->bud_storage_bytes = 64e6;
     s->bud_night_fraction = 0.75;
     s->bud_day_fraction = 0.25;
+    s->proc_model = 0;
+    s->proc_clock_hz = 480e6;
+    s->proc_cpi = 1.25;
+    s->proc_block = 16384u;
+    s->proc_buffers = 4u;
+    for (int i = 0; i < 6; i++)
+        s->proc_ips[i] = 10.5 + i;
     /* fields that follow their keys, as tl_scenario_load sets them */
     s->cfg.integration = s->spectra;
     s->sky.adc_bits = s->cfg.adc_bits;
@@ -304,8 +318,8 @@ static void test_round_trip_every_key(void **state)
     assert_int_equal(tl_scenario_check(&mod, NULL, err, sizeof err), 0);
     char *text = written(&mod);
     char *deftext = written(&def);
-    /* every one of the 55 key lines differs from the default file */
-    assert_int_equal(differing_lines(text, deftext), 55);
+    /* every one of the 66 key lines differs from the default file */
+    assert_int_equal(differing_lines(text, deftext), 66);
     expect_loads(text, &back);
     assert_scenario_equal(&back, &mod, "round trip");
     free(text);
@@ -400,6 +414,24 @@ static const bound bounds[] = {
     { "switching", "load_k", "1", "", "10000", "", "0.999", "10000.001", "a number from 1 to 10000 K" },
     { "switching", "noise_excess_k", "1", "", "10000000", "", "0.999", "10000001", "a number from 1 to 1e+07 K" },
     { "fit", "foreground_order", "1", "", "8", "", "0", "9", "an integer from 1 to 8" },
+    /* the processor-speed model */
+    { "processor", "model", "false", "", "true", "", "no", "2", "true or false" },
+    { "processor", "clock_mhz", "1", "", "10000000", "", "0.999", "10000001", "a number from 1 to 1e+07 MHz" },
+    { "processor", "cycles_per_instruction", "0.1", "", "100", "", "0.0999", "100.001", "a number from 0.1 to 100" },
+    { "processor", "capture_block", "256", "[instrument]\nchannels = 128\n", "1048576", "", "255", "1048577",
+      "an integer from 256 to 1048576 samples" },
+    { "processor", "buffers", "1", "", "64", "", "0", "65", "an integer from 1 to 64" },
+    { "processor", "filterbank_ips", "0", "", "1000000", "", "-0.001", "1000001",
+      "a number from 0 to 1e+06 instructions/sample" },
+    { "processor", "fft_ips", "0", "", "1000000", "", "-0.001", "1000001", "a number from 0 to 1e+06 instructions/sample" },
+    { "processor", "detection_ips", "0", "", "1000000", "", "-0.001", "1000001",
+      "a number from 0 to 1e+06 instructions/sample" },
+    { "processor", "integration_ips", "0", "", "1000000", "", "-0.001", "1000001",
+      "a number from 0 to 1e+06 instructions/sample" },
+    { "processor", "encoding_ips", "0", "", "1000000", "", "-0.001", "1000001",
+      "a number from 0 to 1e+06 instructions/sample" },
+    { "processor", "packets_ips", "0", "", "1000000", "", "-0.001", "1000001",
+      "a number from 0 to 1e+06 instructions/sample" },
 };
 #define NBOUNDS (sizeof bounds / sizeof bounds[0])
 
@@ -441,7 +473,7 @@ static void test_every_key_range_ends(void **state)
      * depend on other keys, tested on their own in test_interference_lists
      * and test_switching_and_fit_keys: carrier_mhz, carrier_dbfs, burst_mhz,
      * sequence, discard */
-    assert_int_equal(NBOUNDS, 52 - 5);
+    assert_int_equal(NBOUNDS, 52 + 11 - 5); /* + the 11 [processor] keys */
     for (size_t i = 0; i < NBOUNDS; i++) {
         const bound *b = &bounds[i];
         check_valid_end(b, b->lo, b->lo_with);
@@ -593,7 +625,7 @@ typedef struct case_ {
     const char *suffix; /* expected message after the path; NULL: loads */
 } case_;
 
-#define SECTIONS "(sections: scenario, instrument, integration, sky, interference, fidelity, switching, fit, flagging, downlink, budget, output)"
+#define SECTIONS "(sections: scenario, instrument, integration, sky, interference, fidelity, switching, fit, flagging, downlink, budget, processor, output)"
 #define INSTRUMENT_KEYS                                                                                               \
     "(keys of [instrument]: sample_rate_mhz, adc_bits, adc_full_scale_v, dc_offset_lsb, inputs, channels, taps, window, "            \
     "fft_scaling, rounding, detection_shift)"
@@ -865,6 +897,10 @@ static void test_check_struct(void **state)
     check_fails(&s, NULL,
                 "scenario: [instrument] sample_rate_mhz = '0': must be a number from 1 to 1000 MHz");
     tl_scenario_nominal(&s);
+    s.proc_block = 65536u + 1024u; /* not a multiple of 2 x 4096 channels */
+    check_fails(&s, NULL, "scenario: [processor] capture_block = '66560': must be a multiple of 2 x channels = 8192 "
+                          "samples");
+    tl_scenario_nominal(&s);
     s.window = 9;
     check_fails(&s, NULL,
                 "scenario: [instrument] window = '?': must be one of rectangular, hann, hamming, blackman, "
@@ -1034,7 +1070,7 @@ static void test_strict_syntax(void **state)
     /* a section name of any length is checked */
     expect_error("[qqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqq]\n",
                  ":1: [qqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqq]: unknown section "
-                 "(sections: scenario, instrument, integration, sky, interference, fidelity, switching, fit, flagging, downlink, budget, output)");
+                 "(sections: scenario, instrument, integration, sky, interference, fidelity, switching, fit, flagging, downlink, budget, processor, output)");
 }
 
 /* Numbers are written so that they read back exactly. */
