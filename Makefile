@@ -160,6 +160,16 @@ help: ## list targets
 include hil/targets.mk
 # ---- end of cross-target block ------------------------------------------------------
 
+# ---- tests/test_command.c runs the link target (hil/) in process ---------------------
+CMD_HIL_SRC := hil/hil_run.c hil/link_target.c
+define cmd_test
+$(BUILD)/$(1)/test_command: $(call objs,$(1),tests/test_command.c $(TEST_SUPPORT_SRC) $(CMD_HIL_SRC)) $(BUILD)/$(1)/libtl.a
+	$$(CC) $$($(1)_LD) $$^ $(TEST_LIBS) $(HOST_LIBS) -o $$@
+$(BUILD)/$(1)/hil/%.o: hil/%.c $(wildcard firmware/*.h hil/*.h)
+	@mkdir -p $$(@D)
+	$$(CC) $$($(1)_FW) -Ifirmware -Ihil -c $$< -o $$@
+endef
+$(foreach v,rel san cov,$(eval $(call cmd_test,$(v))))
 # ---- fuzzing and analysis gates (tests/fuzz/fuzz.mk; docs/faults.md) --------------
 include tests/fuzz/fuzz.mk
 # ---- end of fuzzing and analysis block ----------------------------------------------

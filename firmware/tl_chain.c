@@ -32,8 +32,10 @@ uint32_t tl_config_det_shift(const tl_config *cfg)
     return s;
 }
 
-static tl_status check_config(const tl_config *cfg)
+tl_status tl_config_check(const tl_config *cfg)
 {
+    if (cfg == NULL)
+        return TL_E_NULL;
     if (cfg->points < TL_MIN_POINTS || cfg->points > TL_MAX_POINTS || (cfg->points & (cfg->points - 1u)) != 0u)
         return TL_E_POINTS;
     if (cfg->taps < 1u || cfg->taps > TL_MAX_TAPS)
@@ -53,7 +55,10 @@ static tl_status check_config(const tl_config *cfg)
         (cfg->sk_spectra != 0u && (cfg->sk_spectra < TL_SK_MIN_SPECTRA || cfg->sk_spectra > TL_SK_MAX_SPECTRA ||
                                    (uint64_t)cfg->sk_spectra * skn > cfg->integration)))
         return TL_E_SK;
-    return TL_OK;
+    /* as tl_fft_init: bits 0 .. log2(points/2) only, i.e. below points */
+    if (cfg->fft_scale_mask != TL_FFT_SCALE_AUTO && cfg->fft_scale_mask >= cfg->points)
+        return TL_E_SCALING;
+    return tl_switch_check(cfg->switch_steps, cfg->switch_state, cfg->switch_dwell, cfg->switch_discard);
 }
 
 static void start_integration(tl_chain *c)
@@ -90,25 +95,32 @@ tl_status tl_chain_init(tl_chain *c, const tl_config *cfg, const uint8_t *taps_i
 {
     if (c == NULL || cfg == NULL)
         return TL_E_NULL;
-    c->initialised = 0;
-    tl_status st = check_config(cfg);
+    /* Everything that can be wrong is checked before *c is written, so a
+     * refused configuration leaves a running chain as it was. */
+    tl_status st = tl_config_check(cfg);
     if (st != TL_OK)
         return st;
-    st = tl_fft_init(&c->fft, cfg->points, cfg->fft_scale_mask, (tl_rounding)cfg->rounding);
-    if (st != TL_OK)
-        return st;
-    st = tl_switch_init(&c->sw, cfg->switch_steps, cfg->switch_state, cfg->switch_dwell, cfg->switch_discard);
-    if (st != TL_OK)
-        return st;
-    st = tl_sk_init(&c->sk, cfg->sk_spectra, cfg->sk_accumulate ? cfg->sk_accumulate : 1u, cfg->points / 2u,
-                    cfg->inputs);
-    if (st != TL_OK)
-        return st;
+    uint32_t points = tl_taps_default_points, taps = tl_taps_default_taps;
+    if (taps_image != NULL) {
+        st = tl_taps_check_image(taps_image, image_len, &points, &taps);
+        if (st != TL_OK)
+            return st;
+    }
+    if (points != cfg->points || taps != cfg->taps)
+        return TL_E_TABLE_MISMATCH;
+    /* writes c->taps only on success (the built-in table's CRC is checked first) */
     st = (taps_image == NULL) ? tl_taps_default(&c->taps) : tl_taps_load_image(&c->taps, taps_image, image_len);
     if (st != TL_OK)
         return st;
-    if (c->taps.points != cfg->points || c->taps.taps != cfg->taps)
-        return TL_E_TABLE_MISMATCH;
+    c->initialised = 0;
+    st = tl_fft_init(&c->fft, cfg->points, cfg->fft_scale_mask, (tl_rounding)cfg->rounding);
+    if (st == TL_OK)
+        st = tl_switch_init(&c->sw, cfg->switch_steps, cfg->switch_state, cfg->switch_dwell, cfg->switch_discard);
+    if (st == TL_OK)
+        st = tl_sk_init(&c->sk, cfg->sk_spectra, cfg->sk_accumulate ? cfg->sk_accumulate : 1u, cfg->points / 2u,
+                        cfg->inputs);
+    if (st != TL_OK)
+        return st; /* not reached: tl_config_check covers these checks */
     c->cfg = *cfg;
     c->cfg.fft_scale_mask = c->fft.scale_mask;
     c->cfg.det_shift = tl_config_det_shift(cfg);

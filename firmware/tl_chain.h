@@ -200,12 +200,22 @@ void tl_config_default(tl_config *cfg);
 /* Resolve TL_FFT_SCALE_AUTO and TL_DET_SHIFT_AUTO as init would. */
 uint32_t tl_config_det_shift(const tl_config *cfg);
 
-/* Check every field of cfg, then start the chain with the coefficient table
- * image `taps_image` (or the built-in default when it is NULL). Returns
- * TL_OK, TL_E_NULL, TL_E_POINTS, TL_E_TAPS, TL_E_INPUTS, TL_E_ADC_BITS,
- * TL_E_INTEGRATION, TL_E_SCALING, TL_E_ROUNDING, TL_E_DET_SHIFT, TL_E_SWITCH, any error of
- * tl_taps_load_image, or TL_E_TABLE_MISMATCH (table taps/points differ from
- * cfg). On error the context is left marked uninitialised. */
+/* Check every field of cfg and nothing else: no context, no table, nothing
+ * written. The ranges are those of tl_config above; a switch sequence as
+ * tl_switch_check; fft_scale_mask TL_FFT_SCALE_AUTO or below points.
+ * Returns the first fault in this order: TL_OK, TL_E_NULL, TL_E_POINTS,
+ * TL_E_TAPS, TL_E_INPUTS, TL_E_ADC_BITS, TL_E_INTEGRATION, TL_E_ROUNDING,
+ * TL_E_DET_SHIFT, TL_E_SK, TL_E_SCALING, TL_E_SWITCH. */
+tl_status tl_config_check(const tl_config *cfg);
+
+/* Check every field of cfg (tl_config_check) and the table, then start the
+ * chain with the coefficient table image `taps_image` (or the built-in
+ * default when it is NULL). Returns TL_OK, TL_E_NULL, any status of
+ * tl_config_check, any error of tl_taps_check_image, TL_E_TABLE_MISMATCH
+ * (table taps/points differ from cfg), or TL_E_TABLE_CRC (the built-in
+ * table is corrupted). On error *c is not written: a running chain keeps
+ * running with its old configuration and table, byte for byte (a context
+ * never initialised stays uninitialised). */
 tl_status tl_chain_init(tl_chain *c, const tl_config *cfg, const uint8_t *taps_image, size_t image_len);
 
 /* Replace the coefficient table while running. The image is checked whole;

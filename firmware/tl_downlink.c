@@ -39,11 +39,10 @@ uint32_t tl_downlink_config_id(const tl_config *cfg, uint32_t taps_crc)
     return tl_crc32c_final(c);
 }
 
-tl_status tl_downlink_init(tl_downlink *d, const tl_downlink_config *cfg)
+tl_status tl_downlink_config_check(const tl_downlink_config *cfg)
 {
-    if (d == NULL || cfg == NULL)
+    if (cfg == NULL)
         return TL_E_NULL;
-    d->initialised = 0u;
     if (cfg->apid_science > TL_PACKET_APID_MAX || cfg->apid_hk > TL_PACKET_APID_MAX
         || cfg->apid_sk > TL_PACKET_APID_MAX || cfg->apid_science == cfg->apid_hk
         || cfg->apid_sk == cfg->apid_science || cfg->apid_sk == cfg->apid_hk)
@@ -61,7 +60,18 @@ tl_status tl_downlink_init(tl_downlink *d, const tl_downlink_config *cfg)
     }
     if (cfg->sample_rate_hz == 0u)
         return TL_E_TIME_RANGE;
-    const tl_status st = tl_packet_writer_init(&d->pw, cfg->max_packet);
+    return TL_OK;
+}
+
+tl_status tl_downlink_init(tl_downlink *d, const tl_downlink_config *cfg)
+{
+    if (d == NULL || cfg == NULL)
+        return TL_E_NULL;
+    /* checked before *d is written: a refused configuration leaves a running downlink as it was */
+    tl_status st = tl_downlink_config_check(cfg);
+    if (st != TL_OK)
+        return st;
+    st = tl_packet_writer_init(&d->pw, cfg->max_packet); /* cannot fail: 512 .. 4095 is inside its range */
     if (st != TL_OK)
         return st;
     d->cfg = *cfg;

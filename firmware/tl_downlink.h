@@ -211,12 +211,19 @@ void tl_downlink_config_default(tl_downlink_config *cfg);
  * Returns 0 for a NULL cfg. */
 uint32_t tl_downlink_config_id(const tl_config *cfg, uint32_t taps_crc);
 
-/* Check cfg and start the packet writer (sequence counts from 0).
- * Returns TL_OK, TL_E_NULL, TL_E_APID (an APID above 2046, or two the
+/* Check cfg and nothing else (nothing written). Returns the first fault in
+ * this order: TL_OK, TL_E_NULL, TL_E_APID (an APID above 2046, or two the
  * same), TL_E_PACKET_LEN (max_packet outside TL_DL_MIN_PACKET ..
- * TL_PACKET_MAX_LEN), TL_E_ENCODING (encoding, transpose or block out of
- * range), TL_E_NOISE_FRACTION, or TL_E_TIME_RANGE (sample rate 0). On error
- * *d is marked uninitialised. */
+ * TL_PACKET_MAX_LEN), TL_E_ENCODING (encoding or transpose not one of the
+ * two; bounded only: block outside 1 .. 255), TL_E_NOISE_FRACTION (bounded
+ * only), or TL_E_TIME_RANGE (sample rate 0). mode, config_id and epoch take
+ * any value. */
+tl_status tl_downlink_config_check(const tl_downlink_config *cfg);
+
+/* Check cfg (tl_downlink_config_check) and start the packet writer
+ * (sequence counts from 0). Returns TL_OK, TL_E_NULL or a status of
+ * tl_downlink_config_check. On error *d is not written: a running downlink
+ * keeps its configuration and sequence counts. */
 tl_status tl_downlink_init(tl_downlink *d, const tl_downlink_config *cfg);
 
 /* Packetise one product (tl_chain_take) and its housekeeping; `taps_ok` is

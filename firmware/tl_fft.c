@@ -173,7 +173,7 @@ static void split(tl_fft *f, int32_t *X, uint32_t *ovf)
     const unsigned sh = TW_FRAC + 1u + f->split_shift;
     const tl_rounding mode = f->rounding;
     for (uint32_t k = 0; k <= L / 2u; k++) {
-        const uint32_t km = (L - k) % L; /* Z[L] = Z[0] */
+        const uint32_t km = k == 0u ? 0u : L - k; /* Z[L] = Z[0] */
         const int64_t zr = Z[2u * k], zi = Z[2u * k + 1u];
         const int64_t mr = Z[2u * km], mi = -(int64_t)Z[2u * km + 1u]; /* conj(Z[L-k]) */
         const int64_t ar = zr + mr, ai = zi + mi;

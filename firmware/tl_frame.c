@@ -28,15 +28,23 @@ static uint8_t *data_field(tl_frame_builder *fb)
     return frame_start(fb) + TL_FRAME_OFF_DATA;
 }
 
+tl_status tl_frame_builder_check(uint32_t frame_len, uint32_t scid, uint32_t vcid)
+{
+    if (frame_len < TL_FRAME_MIN_LEN || frame_len > TL_FRAME_MAX_LEN)
+        return TL_E_FRAME_LEN;
+    if (scid > TL_FRAME_SCID_MAX || vcid > TL_FRAME_VCID_MAX)
+        return TL_E_FIELD_RANGE;
+    return TL_OK;
+}
+
 tl_status tl_frame_builder_init(tl_frame_builder *fb, uint32_t frame_len, uint16_t scid, uint8_t vcid,
                                 tl_frame_sink sink, void *user)
 {
     if (fb == NULL || sink == NULL)
         return TL_E_NULL;
-    if (frame_len < TL_FRAME_MIN_LEN || frame_len > TL_FRAME_MAX_LEN)
-        return TL_E_FRAME_LEN;
-    if (scid > TL_FRAME_SCID_MAX || vcid > TL_FRAME_VCID_MAX)
-        return TL_E_FIELD_RANGE;
+    const tl_status st = tl_frame_builder_check(frame_len, scid, vcid);
+    if (st != TL_OK)
+        return st;
     fb->frame_len = frame_len;
     fb->scid = scid;
     fb->vcid = vcid;

@@ -120,6 +120,12 @@ typedef struct tl_frame_builder {
     uint8_t buf[TL_FRAME_ASM_OCTETS + TL_FRAME_MAX_LEN]; /* ASM + frame being built */
 } tl_frame_builder;
 
+/* Check builder settings without a builder (nothing written): frame_len
+ * TL_FRAME_MIN_LEN .. TL_FRAME_MAX_LEN, else TL_E_FRAME_LEN; scid 0 .. 1023
+ * and vcid 0 .. 7 (taken as 32-bit values, so a wider one is refused, not
+ * truncated), else TL_E_FIELD_RANGE. Returns TL_OK otherwise. */
+tl_status tl_frame_builder_check(uint32_t frame_len, uint32_t scid, uint32_t vcid);
+
 /* Configure a builder: frame_len (ASM excluded) TL_FRAME_MIN_LEN ..
  * TL_FRAME_MAX_LEN, spacecraft id 0 .. 1023, virtual channel id 0 .. 7,
  * and the sink (user is passed to it as is and may be NULL). Frame counts

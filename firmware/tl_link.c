@@ -3,6 +3,7 @@
 #include <string.h>
 #include "tl_bytes.h"
 #include "tl_crc32c.h"
+#include "tl_frame.h"
 
 /* The record carries every field of these two structs. Their sizes are the
  * same on every target (32-bit fields, the switch states 8 octets, the
@@ -294,4 +295,82 @@ tl_status tl_link_setup_decode(const uint8_t *src, size_t len, tl_link_setup *s,
     c->sk_accumulate = tl_get_be32(src + TL_LINK_SETUP_OFF_SK_ACCUMULATE);
     *s = v;
     return TL_OK;
+}
+
+/* ---- whole-setup check ----------------------------------------------------------- */
+
+/* The offset of the chain field behind a tl_config_check status. */
+static uint32_t chain_field(const tl_config *c, tl_status st)
+{
+    switch (st) {
+    case TL_E_POINTS: return TL_LINK_SETUP_OFF_POINTS;
+    case TL_E_TAPS: return TL_LINK_SETUP_OFF_TAPS;
+    case TL_E_INPUTS: return TL_LINK_SETUP_OFF_INPUTS;
+    case TL_E_ADC_BITS: return TL_LINK_SETUP_OFF_ADC_BITS;
+    case TL_E_INTEGRATION: return TL_LINK_SETUP_OFF_INTEGRATION;
+    case TL_E_ROUNDING: return TL_LINK_SETUP_OFF_ROUNDING;
+    case TL_E_DET_SHIFT: return TL_LINK_SETUP_OFF_DET_SHIFT;
+    case TL_E_SCALING: return TL_LINK_SETUP_OFF_SCALE_MASK;
+    case TL_E_SK:
+        return c->sk_accumulate > TL_SK_MAX_ACCUMULATE ? TL_LINK_SETUP_OFF_SK_ACCUMULATE : TL_LINK_SETUP_OFF_SK_SPECTRA;
+    default: break;
+    }
+    /* TL_E_SWITCH: the first field tl_switch_check refuses */
+    if (c->switch_steps > TL_MAX_SWITCH_STEPS)
+        return TL_LINK_SETUP_OFF_SWITCH_STEPS;
+    for (uint32_t i = 0; i < c->switch_steps; i++) {
+        if (c->switch_state[i] >= TL_STATES)
+            return TL_LINK_SETUP_OFF_SWITCH + 8u * i;
+        if (c->switch_dwell[i] < 1u || c->switch_dwell[i] > TL_MAX_INTEGRATION)
+            return TL_LINK_SETUP_OFF_SWITCH + 8u * i + 4u;
+        if (c->switch_discard >= c->switch_dwell[i])
+            return TL_LINK_SETUP_OFF_SWITCH_DISCARD;
+    }
+    return TL_LINK_SETUP_OFF_SWITCH_DISCARD; /* discard with no steps, or not below a dwell */
+}
+
+/* The offset of the downlink field behind a tl_downlink_config_check status. */
+static uint32_t downlink_field(const tl_downlink_config *d, tl_status st)
+{
+    switch (st) {
+    case TL_E_APID:
+        if (d->apid_science > TL_PACKET_APID_MAX)
+            return TL_LINK_SETUP_OFF_APID_SCIENCE;
+        if (d->apid_hk > TL_PACKET_APID_MAX || d->apid_hk == d->apid_science)
+            return TL_LINK_SETUP_OFF_APID_HK;
+        return TL_LINK_SETUP_OFF_APID_SK;
+    case TL_E_PACKET_LEN: return TL_LINK_SETUP_OFF_MAX_PACKET;
+    case TL_E_ENCODING:
+        if (d->encoding != TL_ENCODE_ID_LOSSLESS && d->encoding != TL_ENCODE_ID_BOUNDED)
+            return TL_LINK_SETUP_OFF_ENCODING;
+        if (d->transpose != TL_ENCODE_BYTE_SHUFFLE && d->transpose != TL_ENCODE_BIT_PLANES)
+            return TL_LINK_SETUP_OFF_TRANSPOSE;
+        return TL_LINK_SETUP_OFF_BLOCK;
+    case TL_E_NOISE_FRACTION: return TL_LINK_SETUP_OFF_FRACTION;
+    default: return TL_LINK_SETUP_OFF_SAMPLE_RATE; /* TL_E_TIME_RANGE */
+    }
+}
+
+tl_status tl_link_setup_check(const tl_link_setup *s, uint32_t *bad_field)
+{
+    if (s == NULL)
+        return TL_E_NULL;
+    uint32_t field = 0;
+    tl_status st = tl_config_check(&s->chain);
+    if (st != TL_OK) {
+        field = chain_field(&s->chain, st);
+    } else {
+        st = tl_downlink_config_check(&s->dl);
+        if (st != TL_OK) {
+            field = downlink_field(&s->dl, st);
+        } else {
+            st = tl_frame_builder_check(s->frame_len, s->scid, s->vcid);
+            field = st == TL_E_FRAME_LEN               ? TL_LINK_SETUP_OFF_FRAME_LEN
+                    : s->scid > TL_FRAME_SCID_MAX      ? TL_LINK_SETUP_OFF_SCID
+                                                       : TL_LINK_SETUP_OFF_VCID;
+        }
+    }
+    if (st != TL_OK && bad_field != NULL)
+        *bad_field = field;
+    return st;
 }

@@ -43,8 +43,9 @@
  * and that each value fits the integer it goes into (a switch state, an
  * APID, the mode, the epoch's fine time, the SCID and the VCID are
  * narrower than 32 bits). Whether the values make a valid configuration is
- * for tl_chain_init, tl_downlink_init and tl_frame_builder_init to say,
- * each with its own status. Every field of tl_config and tl_downlink_config
+ * for tl_link_setup_check to say (the checks tl_chain_init,
+ * tl_downlink_init and tl_frame_builder_init run first), each with its own
+ * status and the offset of the field at fault. Every field of tl_config and tl_downlink_config
  * is in the record (tl_link.c asserts their sizes at compile time, so a new
  * field cannot be forgotten: add it here, in docs/icd.md 8.4, and
  * regenerate the vectors). The configuration id is not in the record: a
@@ -211,6 +212,23 @@ tl_status tl_link_setup_encode(const tl_link_setup *s, uint8_t *dst, size_t cap)
  * only on TL_OK. Reads at most len octets.
  */
 tl_status tl_link_setup_decode(const uint8_t *src, size_t len, tl_link_setup *s, uint32_t *bad_field);
+
+/*
+ * Check that a decoded setup makes a valid run, without starting one
+ * (nothing written but *bad_field): the chain configuration
+ * (tl_config_check), the downlink configuration (tl_downlink_config_check;
+ * config_id is not checked: the target computes it) and the transfer
+ * frames (tl_frame_builder_check), in that order. The coefficient table is
+ * not part of the record: tl_chain_init checks it against points and taps.
+ * Returns TL_OK, TL_E_NULL (s NULL), or the first status of those checks;
+ * on an error other than TL_E_NULL, *bad_field (if not NULL) receives the
+ * record offset (TL_LINK_SETUP_OFF_*) of the field at fault: for a
+ * relation between fields (an APID repeated, the spectral kurtosis block
+ * longer than the integration, a discard not below a dwell) the field
+ * checked last, i.e. the later one in the order of tl_config and
+ * tl_downlink_config.
+ */
+tl_status tl_link_setup_check(const tl_link_setup *s, uint32_t *bad_field);
 
 /* Name of the field at `offset` ("points", "switch_dwell", ...); "?" for
  * an offset inside no field. Never NULL. */

@@ -1,11 +1,8 @@
 /* tl_switch.c - the calibration switch sequence (see tl_switch.h). */
 #include "tl_switch.h"
 
-tl_status tl_switch_init(tl_switch *sw, uint32_t steps, const uint8_t *state, const uint32_t *dwell,
-                         uint32_t discard)
+tl_status tl_switch_check(uint32_t steps, const uint8_t *state, const uint32_t *dwell, uint32_t discard)
 {
-    if (sw == NULL)
-        return TL_E_NULL;
     if (steps > TL_MAX_SWITCH_STEPS || (steps == 0u && discard != 0u))
         return TL_E_SWITCH;
     if (steps > 0u && (state == NULL || dwell == NULL))
@@ -13,6 +10,17 @@ tl_status tl_switch_init(tl_switch *sw, uint32_t steps, const uint8_t *state, co
     for (uint32_t i = 0; i < steps; i++)
         if (state[i] >= TL_STATES || dwell[i] < 1u || dwell[i] > TL_MAX_INTEGRATION || discard >= dwell[i])
             return TL_E_SWITCH;
+    return TL_OK;
+}
+
+tl_status tl_switch_init(tl_switch *sw, uint32_t steps, const uint8_t *state, const uint32_t *dwell,
+                         uint32_t discard)
+{
+    if (sw == NULL)
+        return TL_E_NULL;
+    const tl_status st = tl_switch_check(steps, state, dwell, discard);
+    if (st != TL_OK)
+        return st;
     sw->steps = steps;
     for (uint32_t i = 0; i < TL_MAX_SWITCH_STEPS; i++) {
         sw->state[i] = (i < steps) ? state[i] : (uint8_t)TL_STATE_ANTENNA;

@@ -38,6 +38,11 @@ typedef struct tl_switch {
     uint32_t in_state;                       /* frames since the state last changed (saturates) */
 } tl_switch;
 
+/* Check a sequence without starting it: the checks of tl_switch_init,
+ * nothing written. Returns TL_OK, TL_E_NULL (arrays NULL with steps > 0)
+ * or TL_E_SWITCH. */
+tl_status tl_switch_check(uint32_t steps, const uint8_t *state, const uint32_t *dwell, uint32_t discard);
+
 /* Check and start a sequence. steps 0..TL_MAX_SWITCH_STEPS; each state
  * < TL_STATES; each dwell 1..TL_MAX_INTEGRATION; discard below every dwell
  * (0 when steps is 0). Returns TL_OK, TL_E_NULL (arrays NULL with steps > 0)

@@ -21,15 +21,21 @@ tl_status hil_run_start(hil_run *r, const tl_link_setup *s, const uint8_t *taps_
 {
     if (r == NULL || s == NULL || sink == NULL)
         return TL_E_NULL;
+    /* The whole setup is checked before anything is written, and
+     * tl_chain_init checks the table before it writes: a refused setup
+     * leaves a running run exactly as it was. */
+    tl_status st = tl_link_setup_check(s, NULL);
+    if (st != TL_OK)
+        return st;
+    st = tl_chain_init(&r->chain, &s->chain, taps_image, image_len);
+    if (st != TL_OK)
+        return st;
     r->frame_status = TL_OK;
     r->products = 0;
     r->sk_blocks = 0;
     r->octets_out = 0;
     r->sink = sink;
     r->user = user;
-    tl_status st = tl_chain_init(&r->chain, &s->chain, taps_image, image_len);
-    if (st != TL_OK)
-        return st;
     tl_downlink_config dc = s->dl;
     dc.config_id = tl_downlink_config_id(&r->chain.cfg, r->chain.taps.crc);
     st = tl_downlink_init(&r->dl, &dc);

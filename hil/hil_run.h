@@ -48,9 +48,10 @@ typedef struct hil_run {
 
 /* Start a run. taps_image NULL uses the built-in table; it may point to
  * r->u.taps_image (the image is copied before the product is written).
- * Returns TL_OK or the
- * status of tl_chain_init, tl_downlink_init or tl_frame_builder_init (in
- * that order). */
+ * Returns TL_OK, TL_E_NULL, the status of tl_link_setup_check (chain,
+ * downlink, frames, in that order) or a table status of tl_chain_init.
+ * Everything is checked before *r is written: on error a running run goes
+ * on with its old setup, byte for byte. */
 tl_status hil_run_start(hil_run *r, const tl_link_setup *s, const uint8_t *taps_image, size_t image_len,
                         tl_frame_sink sink, void *user);
 

@@ -12,6 +12,10 @@ static uint8_t work[TL_LINK_MAX_BODY];
 static uint8_t tx_work[TL_LINK_MAX_BODY];
 static uint8_t tx_wire[TL_LINK_MAX_WIRE];
 static int16_t in0[SAMPLE_BLOCK], in1[SAMPLE_BLOCK];
+/* TABLE pieces land here, never in the running chain's table: a run goes
+ * on while a table arrives, and only a CONFIG whose setup and whole image
+ * check replaces the running table (docs/icd.md 8.3). */
+static uint8_t staged[TL_TAPS_IMAGE_BYTES(TL_MAX_TAPS, TL_MAX_POINTS)];
 
 typedef struct state {
     const link_port *port;
@@ -69,7 +73,7 @@ static void send_status(uint16_t acked, uint8_t startup)
     tl_put_be32(p + 14, TL_MAX_POINTS);
     tl_put_be32(p + 18, TL_MAX_TAPS);
     tl_put_be32(p + 22, TL_LINK_MAX_PAYLOAD);
-    tl_put_be32(p + 26, (uint32_t)sizeof run.u.taps_image);
+    tl_put_be32(p + 26, (uint32_t)sizeof staged);
     if (startup)
         send_msg(TL_LINK_T_STATUS, p, sizeof p);
     else
@@ -120,7 +124,6 @@ static void restart(void)
 
 static void on_table(uint16_t seq, const uint8_t *p, size_t n)
 {
-    S.running = 0; /* the image shares its memory with a running product */
     if (n < 8u) {
         refuse(seq, TL_E_FORMAT, 0u);
         return;
@@ -129,21 +132,30 @@ static void on_table(uint16_t seq, const uint8_t *p, size_t n)
     const size_t len = n - 8u;
     if (off == 0u)
         S.table_len = 0;
-    if (total > sizeof run.u.taps_image || off != S.table_len || len > total - off) {
+    if (total > sizeof staged || off != S.table_len || len > total - off) {
         S.table_len = 0;
         refuse(seq, TL_E_TABLE_SIZE, total);
         return;
     }
     for (size_t i = 0; i < len; i++)
-        run.u.taps_image[off + i] = p[8 + i];
+        staged[off + i] = p[8 + i];
     S.table_len = off + (uint32_t)len;
     S.table_total = total;
+    if (S.table_len == total) { /* the last piece: the whole image is checked now */
+        const tl_status st = tl_taps_check_image(staged, total, NULL, NULL);
+        if (st != TL_OK) {
+            S.table_len = 0;
+            refuse(seq, st, total);
+            return;
+        }
+    }
     ack(seq);
 }
 
+/* A refused CONFIG changes nothing: a run in progress goes on with its
+ * old setup and table (docs/icd.md 8.3). */
 static void on_config(uint16_t seq, const uint8_t *p, size_t n)
 {
-    S.running = 0;
     if (n != 4u + TL_LINK_SETUP_OCTETS) {
         refuse(seq, TL_E_FORMAT, 0u);
         return;
@@ -156,24 +168,18 @@ static void on_config(uint16_t seq, const uint8_t *p, size_t n)
     tl_link_setup setup;
     uint32_t bad = 0;
     tl_status st = tl_link_setup_decode(p + 4, TL_LINK_SETUP_OCTETS, &setup, &bad);
+    if (st == TL_OK)
+        st = tl_link_setup_check(&setup, &bad);
     if (st != TL_OK) {
         refuse(seq, st, bad);
         return;
     }
-    if (setup.chain.points > TL_MAX_POINTS) {
-        refuse(seq, TL_E_POINTS, TL_MAX_POINTS);
+    st = hil_run_start(&run, &setup, tlen != 0u ? staged : NULL, tlen, frames_out, NULL);
+    if (st != TL_OK) { /* the table: detail is its length */
+        refuse(seq, st, tlen);
         return;
     }
-    if (setup.chain.taps > TL_MAX_TAPS) {
-        refuse(seq, TL_E_TAPS, TL_MAX_TAPS);
-        return;
-    }
-    st = hil_run_start(&run, &setup, tlen != 0u ? run.u.taps_image : NULL, tlen, frames_out, NULL);
-    S.table_len = 0; /* the image memory now belongs to the products */
-    if (st != TL_OK) {
-        refuse(seq, st, 0u);
-        return;
-    }
+    S.table_len = 0; /* a table is used by one CONFIG; the next needs its own transfer */
     S.running = 1;
     S.inputs = setup.chain.inputs;
     ack(seq);

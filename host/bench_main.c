@@ -405,8 +405,13 @@ static int callgrind_workload(uint32_t channels)
     bench_stage_radix2(&d);
     tl_chain *c = open_chain(&cs);
     size_t used = 0; /* prime the chain's filterbank outside the measured call */
-    if (tl_chain_push(c, x, NULL, (size_t)warm * cs.points, &used) != TL_OK)
+    if (tl_chain_push(c, x, NULL, (size_t)warm * cs.points, &used) != TL_OK) {
+        free(c);
+        close_stages(&d);
+        free(x);
+        free_setup(&cs);
         return 1;
+    }
     bench_stage_chain(c, x + (size_t)warm * cs.points, (size_t)CG_FRAMES * cs.points);
     /* the product of the same frames, then its encoding and its downlink */
     chain_setup ps = cs;
@@ -452,6 +457,7 @@ static int callgrind_once(const char *self, const char *dir, uint32_t channels, 
              "valgrind --tool=callgrind -q --callgrind-out-file='%s' '%s' --callgrind-workload %u >/dev/null 2>&1 "
              "&& callgrind_annotate --inclusive=yes --threshold=100 '%s' 2>/dev/null",
              out, self, channels, out);
+/* NOLINTNEXTLINE(cert-env33-c): the bench runs valgrind, cmp and the built tool on paths it made */
     FILE *p = popen(cmd, "r");
     if (p == NULL)
         return -1;
@@ -568,6 +574,7 @@ static void bench_instructions(chain_row *rows, int nrows, const char *self, con
 {
     char dir[4096];
     snprintf(dir, sizeof dir, "%s/tl-bench-cg-XXXXXX", tmp);
+/* NOLINTNEXTLINE(cert-env33-c): the bench runs valgrind, cmp and the built tool on paths it made */
     if (system("valgrind --version >/dev/null 2>&1 && command -v callgrind_annotate >/dev/null 2>&1") != 0 ||
         mkdtemp(dir) == NULL) {
         printf("callgrind   valgrind or callgrind_annotate missing: instructions per sample NOT measured\n");
@@ -588,6 +595,7 @@ static void bench_instructions(chain_row *rows, int nrows, const char *self, con
     }
     char cmd[4200];
     snprintf(cmd, sizeof cmd, "rm -rf '%s'", dir);
+/* NOLINTNEXTLINE(cert-env33-c): the bench runs valgrind, cmp and the built tool on paths it made */
     if (system(cmd) != 0)
         fprintf(stderr, "tl-bench: cannot remove %s\n", dir);
 }
@@ -740,13 +748,13 @@ static void bench_encoder(json_t *root)
     printf("encoder     lossless, bit planes, %u x %u channels of auto0: %.1f MB/s of sums, x%.3f; "
            "liblz4 LZ4_compress_default on the same transposed bytes: %.1f MB/s (LZ4 stage only), x%.3f "
            "(ours/liblz4 size %.4f); ground decoder %.1f MB/s\n",
-           chunks, n, mb / t_ours, (double)raw / ours, mb / t_ref, (double)raw / theirs,
+           chunks, n, mb / t_ours, (double)raw / (double)ours, mb / t_ref, (double)raw / (double)theirs,
            (double)ours / (double)theirs, mb / t_dec);
     json_t *o = json_object();
     json_object_set_new(o, "encode_mb_per_s", json_real(mb / t_ours));
-    json_object_set_new(o, "ratio", json_real((double)raw / ours));
+    json_object_set_new(o, "ratio", json_real((double)raw / (double)ours));
     json_object_set_new(o, "liblz4_mb_per_s", json_real(mb / t_ref));
-    json_object_set_new(o, "liblz4_ratio", json_real((double)raw / theirs));
+    json_object_set_new(o, "liblz4_ratio", json_real((double)raw / (double)theirs));
     json_object_set_new(o, "size_ours_over_liblz4", json_real((double)ours / (double)theirs));
     json_object_set_new(o, "decode_mb_per_s", json_real(mb / t_dec));
     json_object_set_new(root, "encoder", o);
@@ -862,6 +870,7 @@ static int bench_replay(json_t *root, const char *tool, const char *tmp, double 
     snprintf(cmp, sizeof cmp, "cmp -s '%s/auto0.npy' '%s/auto0.npy' && cmp -s '%s/auto1.npy' '%s/auto1.npy' && "
              "cmp -s '%s/cross.npy' '%s/cross.npy' && cmp -s '%s/auto0.npy' '%s/auto0.npy'",
              outs[0], outs[1], outs[0], outs[1], outs[0], outs[1], out, outs[1]);
+/* NOLINTNEXTLINE(cert-env33-c): the bench runs valgrind, cmp and the built tool on paths it made */
     const int same = system(cmp) == 0;
     const stat3 t1 = stat_of(tt[0], 3), t2 = stat_of(tt[1], 3);
     const double speedup = t1.med / t2.med;
@@ -886,6 +895,7 @@ static int bench_replay(json_t *root, const char *tool, const char *tmp, double 
     json_object_set_new(root, "replay", o);
     char cmd[4400];
     snprintf(cmd, sizeof cmd, "rm -rf '%s'", dir);
+/* NOLINTNEXTLINE(cert-env33-c): the bench runs valgrind, cmp and the built tool on paths it made */
     return system(cmd) == 0 ? 0 : -1;
 }
 
@@ -895,8 +905,13 @@ static double load_average(void)
     double l = -1.0;
     FILE *f = fopen("/proc/loadavg", "r");
     if (f != NULL) {
-        if (fscanf(f, "%lf", &l) != 1)
-            l = -1.0;
+        char line[128];
+        char *end = NULL;
+        if (fgets(line, sizeof line, f) != NULL) {
+            const double v = strtod(line, &end);
+            if (end != line)
+                l = v;
+        }
         fclose(f);
     }
     return l;

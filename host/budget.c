@@ -220,11 +220,11 @@ void tl_budget_print(FILE *out, const tl_scenario *s, const tl_budget *b)
             s->dl_max_packet, s->dl_frame_len);
     fprintf(out, "product, simulated (%u spectra): %u + %u packets, %llu octets, compression x%.2f\n", b->sim_spectra,
             b->sim.packets_science, b->sim.packets_hk,
-            (unsigned long long)(b->sim.octets_science + b->sim.octets_hk), ratio(&b->sim));
+            (unsigned long long)b->sim.octets_science + b->sim.octets_hk, ratio(&b->sim));
     fprintf(out, "product, flight (%u spectra = %.1f s; the measured spectrum with the flight's noise): %u + %u "
                  "packets, %llu octets, compression x%.2f\n",
             b->flight_spectra, b->product_s, b->flight.packets_science, b->flight.packets_hk,
-            (unsigned long long)(b->flight.octets_science + b->flight.octets_hk), ratio(&b->flight));
+            (unsigned long long)b->flight.octets_science + b->flight.octets_hk, ratio(&b->flight));
     if (b->sk_blocks_flight)
         fprintf(out, "spectral kurtosis: %u blocks of %u x %u spectra per flight integration x %.0f octets = %.0f "
                      "octets (measured on the %u-spectrum simulation: an upper bound)\n",

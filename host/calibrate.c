@@ -57,7 +57,7 @@ double tl_calibrate_model(double t_ant_state, double t_load_state, double t_ns_s
 
 /* Solve the normal equations (Gauss-Jordan with pivoting) for m parameters;
  * cov receives the inverse of the normal matrix. Returns 0 or -1. */
-static int solve(double A[MAXP][MAXP], double *b, unsigned m, double cov[MAXP][MAXP], double *x)
+static int solve(double A[MAXP][MAXP], const double *b, unsigned m, double cov[MAXP][MAXP], double *x)
 {
     double aug[MAXP][2 * MAXP + 1];
     for (unsigned i = 0; i < m; i++) {

@@ -285,7 +285,6 @@ tl_status tl_fidelity_run(const tl_fid_setup *su, tl_fid_result *res)
         st = TL_E_NULL;
         goto out;
     }
-    st = TL_OK;
     const int two = cfg.inputs == 2u;
     /* the harness follows the firmware's sequence for the reference */
     tl_switch sw;

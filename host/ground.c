@@ -1732,7 +1732,7 @@ size_t tl_ground_summary(const tl_ground *g, const char *input, char *out, size_
     say(&t, "  packets: %llu decoded, %llu CRC errors, %llu bad headers, %llu bad contents, %llu cut short, "
             "%llu idle",
         (ull)used, (ull)s->packets[TL_GP_CRC], (ull)s->packets[TL_GP_BAD_HEADER], (ull)contents,
-        (ull)(s->packets[TL_GP_TRUNCATED] + s->packets[TL_GP_LOST_PARTIAL]), (ull)s->packets_idle);
+        (ull)s->packets[TL_GP_TRUNCATED] + s->packets[TL_GP_LOST_PARTIAL], (ull)s->packets_idle);
     if (g->cfg.raw)
         say(&t, ", %llu resyncs (%llu octets skipped)", (ull)s->resyncs, (ull)s->bytes_skipped);
     if (s->packets[TL_GP_OTHER_APID])

@@ -50,8 +50,10 @@ int tl_noise_predict(uint32_t points, uint32_t scale_mask, tl_rounding mode, uns
                      tl_noise_prediction *out)
 {
     tl_fft *f = malloc(sizeof *f);
-    if (f == NULL || out == NULL)
+    if (f == NULL || out == NULL) {
+        free(f);
         return -1;
+    }
     if (tl_fft_init(f, points, scale_mask, mode) != TL_OK) {
         free(f);
         return -1;
@@ -176,7 +178,7 @@ int tl_twiddle_gain_error(uint32_t points, uint32_t scale_mask, uint32_t lo, uin
         return -1;
     }
     double *y = fftw_malloc(sizeof(double) * points);
-    double *X = malloc(sizeof(double) * points), *w = malloc(sizeof(double) * points);
+    double *X = calloc(points, sizeof(double)), *w = calloc(points, sizeof(double));
     fftw_complex *Z = fftw_malloc(sizeof(fftw_complex) * (points / 2u + 1u));
     fftw_plan plan = fftw_plan_dft_r2c_1d((int)points, y, Z, FFTW_ESTIMATE);
     tl_rng rng;
@@ -215,7 +217,7 @@ int tl_twiddle_gain_channels(uint32_t points, uint32_t scale_mask, unsigned tria
     }
     const uint32_t L = points / 2u;
     double *y = fftw_malloc(sizeof(double) * points);
-    double *X = malloc(sizeof(double) * points), *w = malloc(sizeof(double) * points);
+    double *X = calloc(points, sizeof(double)), *w = calloc(points, sizeof(double));
     double *num = calloc(L, sizeof(double)), *den = calloc(L, sizeof(double));
     fftw_complex *Z = fftw_malloc(sizeof(fftw_complex) * (L + 1u));
     fftw_plan plan = fftw_plan_dft_r2c_1d((int)points, y, Z, FFTW_ESTIMATE);

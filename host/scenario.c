@@ -69,6 +69,7 @@ static const key_def keys[] = {
       "DC offset added to every sample before the ADC rounds it, in codes." },
     { "instrument", "inputs", K_U32, OFF(cfg.inputs), 0, 1, 2, 1, NULL, 0, "",
       "Antenna inputs; with 2 the firmware also forms the cross-power." },
+    /* NOLINTNEXTLINE(bugprone-integer-division): TL_MAX_CHANNELS = TL_MAX_POINTS / 2 is exact */
     { "instrument", "channels", K_CHANNELS, OFF(cfg.points), 0, 128, TL_MAX_CHANNELS, 1, NULL, 0, "",
       "Frequency channels (a power of two); the real FFT has twice as many points." },
     { "instrument", "taps", K_U32, OFF(cfg.taps), 0, 1, TL_MAX_TAPS, 1, NULL, 0, "",
@@ -510,6 +511,27 @@ static int parse_uint(const char *v, int base, unsigned long long *out)
 }
 
 /* Set key k from text v. Returns 0, or -1 with the reason in why. */
+/* One switch step "NAME FRAMES" at q: a state name (lower-case letters,
+ * up to 15) and a decimal count that fits an unsigned long long; *used
+ * receives the octets read. Returns 1, or 0 when q does not start so. */
+static int switch_step(const char *q, char name[16], unsigned long long *frames, int *used)
+{
+    int n = 0;
+    if (sscanf(q, " %15[a-z]%n", name, &n) != 1)
+        return 0;
+    const char *p = q + n;
+    p += strspn(p, " \t");
+    if (*p < '0' || *p > '9')
+        return 0;
+    char *end = NULL;
+    errno = 0;
+    *frames = strtoull(p, &end, 10);
+    if (errno != 0)
+        return 0;
+    *used = (int)(end - q);
+    return 1;
+}
+
 static int set_value(tl_scenario *s, const key_def *k, const char *v, char *why, size_t cap)
 {
     void *p = field(s, k);
@@ -606,7 +628,7 @@ static int set_value(tl_scenario *s, const key_def *k, const char *v, char *why,
                 char name[16];
                 unsigned long long frames = 0;
                 int used = 0;
-                if (steps == TL_MAX_SWITCH_STEPS || sscanf(q, " %15[a-z] %llu%n", name, &frames, &used) != 2 ||
+                if (steps == TL_MAX_SWITCH_STEPS || !switch_step(q, name, &frames, &used) ||
                     frames < (unsigned long long)k->min || frames > (unsigned long long)k->max) {
                     snprintf(why, cap, "must be %s", range);
                     return -1;

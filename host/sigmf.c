@@ -105,7 +105,7 @@ static int write_data(FILE *f, void *ctx)
     const data_job *j = ctx;
     const unsigned ni = j->d->inputs;
     const size_t chunk = 32768;
-    int16_t *a = malloc(sizeof(int16_t) * chunk), *b = malloc(sizeof(int16_t) * chunk);
+    int16_t *a = calloc(chunk, sizeof(int16_t)), *b = calloc(chunk, sizeof(int16_t));
     uint8_t *bytes = malloc(chunk * 2u * ni);
     int rc = (a && b && bytes) ? 0 : -1;
     for (uint64_t left = j->d->samples; rc == 0 && left > 0;) {
@@ -389,6 +389,12 @@ static int digits(const char *s, int n)
     return 1;
 }
 
+/* The value of two decimal digits (checked by digits() first). */
+static int two_digits(const char *s)
+{
+    return (s[0] - '0') * 10 + (s[1] - '0');
+}
+
 /* RFC 3339 date-time with the only offset SigMF allows, "Z". */
 static int datetime_ok(const char *s)
 {
@@ -396,7 +402,8 @@ static int datetime_ok(const char *s)
         s[10] != 'T' || !digits(s + 11, 2) || s[13] != ':' || !digits(s + 14, 2) || s[16] != ':' ||
         !digits(s + 17, 2))
         return 0;
-    const int mo = atoi(s + 5), d = atoi(s + 8), h = atoi(s + 11), mi = atoi(s + 14), se = atoi(s + 17);
+    const int mo = two_digits(s + 5), d = two_digits(s + 8), h = two_digits(s + 11), mi = two_digits(s + 14),
+              se = two_digits(s + 17);
     if (mo < 1 || mo > 12 || d < 1 || d > 31 || h > 23 || mi > 59 || se > 60)
         return 0;
     const char *p = s + 19;
@@ -904,7 +911,7 @@ static const uint8_t *next_frame(tl_sigmf_reader *r, char *err, size_t cap)
         if (got != want) {
             say(err, cap, "%s: %s after %llu bytes (expected %llu): the file changed while being read?",
                 r->info.data_path, ferror(r->f) ? "read error" : "ends early", (unsigned long long)r->bytes_read,
-                (unsigned long long)(r->info.samples * r->info.frame_bytes));
+                (unsigned long long)r->info.samples * r->info.frame_bytes);
             return NULL;
         }
         r->frames_left -= want / r->info.frame_bytes;

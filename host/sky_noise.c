@@ -703,11 +703,11 @@ double tl_sky_psd_per_kelvin(const tl_sky *s)
 
 int tl_sky_white(const tl_sky *s, unsigned kind, unsigned input, int64_t first, size_t n, double *dst)
 {
-    if (kind >= ST_KINDS || input >= s->p.inputs || first < -(int64_t)(s->L - 1u))
+    if (kind >= ST_KINDS || input >= s->p.inputs || first < -(int64_t)(s->L - 1u) || s->hop_len == 0u)
         return -1;
     const int64_t hop = (int64_t)s->hop_len;
     const stream *q = &s->st[ST_KINDS * input + kind];
-    double *blk = malloc(sizeof(double) * s->hop_len);
+    double *blk = calloc(s->hop_len, sizeof(double));
     if (blk == NULL)
         return -1;
     int64_t have = NONE;

@@ -200,7 +200,8 @@ double tl_sk_prob_below(uint32_t m, uint32_t n, double t)
         double lam = 1.0;
         tilt next;
         int ok = 0;
-        for (int j = 0; j < 60; j++, lam *= 0.5) {
+        for (int j = 0; j < 60; j++) {
+            lam = ldexp(1.0, -j); /* 1, 1/2, 1/4, ... exactly */
             if (!(a + lam * da < 0.0))
                 continue;
             tilt_moments(&gl, k, a + lam * da, b + lam * db, &next);

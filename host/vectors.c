@@ -310,7 +310,7 @@ static char *scenario_text(const tl_scenario *s)
         free(out);
         return NULL;
     }
-    strcpy(out, head);
+    memcpy(out, head, sizeof head);
     size_t n = strlen(head);
     char section[64] = "";
     int section_out = 0;
@@ -818,6 +818,7 @@ void tl_vectors_describe(const uint8_t *e, size_t el, const uint8_t *g, size_t g
     free(pg.p);
 }
 
+/* NOLINTNEXTLINE(misc-no-recursion): host only; as deep as the folder tree it removes, which it wrote itself */
 static int remove_tree(const char *path)
 {
     DIR *dp = opendir(path);

@@ -73,9 +73,16 @@ static void test_config_boundaries(void **state)
     cfg = d; cfg.points = 4096; assert_int_equal(tl_chain_init(c, &cfg, NULL, 0), TL_E_TABLE_MISMATCH);
     assert_int_equal(tl_chain_init(NULL, &d, NULL, 0), TL_E_NULL);
     assert_int_equal(tl_chain_init(c, NULL, NULL, 0), TL_E_NULL);
-    /* a failed init leaves the context unusable */
+    /* a failed init leaves a running context running with its last good
+     * configuration (det_shift TL_MAX_DET_SHIFT above; tests/test_command.c
+     * compares the bytes), and a context never initialised unusable */
     size_t used = 99;
     int16_t x[4] = { 0 };
+    assert_int_equal(c->cfg.det_shift, TL_MAX_DET_SHIFT);
+    assert_int_equal(tl_chain_push(c, x, x, 4, &used), TL_OK);
+    assert_int_equal(used, 4);
+    memset(c, 0, sizeof *c);
+    assert_int_equal(tl_chain_init(c, &cfg, NULL, 0), TL_E_TABLE_MISMATCH);
     assert_int_equal(tl_chain_push(c, x, x, 4, &used), TL_E_NOT_INIT);
     assert_int_equal(used, 0);
     free(img256);

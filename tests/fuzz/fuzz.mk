@@ -6,8 +6,8 @@
 #   make gates                    what `make test` adds: every fuzz target for
 #                                 FUZZ_CI_SECONDS (60) each, valgrind memcheck
 #                                 on an end-to-end run and decode, cppcheck,
-#                                 firmware coverage
-#   make memcheck | cppcheck      one gate
+#                                 clang-tidy, firmware coverage
+#   make memcheck | cppcheck | clang-tidy   one gate
 #   make coverage                 firmware line and branch coverage (gcovr)
 #
 # Fuzz targets are built with Debian's clang (-fsanitize=fuzzer,address,
@@ -41,7 +41,7 @@ $(FUZZ_B)/seeds/ok: tests/fuzz/make_seeds.py $(wildcard vectors/*/* docs/*.ini)
 
 FUZZ_BINS := $(addprefix $(FUZZ_B)/fuzz_,$(FUZZ_TARGETS))
 
-.PHONY: fuzz fuzz-build gates memcheck cppcheck coverage
+.PHONY: fuzz fuzz-build gates memcheck cppcheck clang-tidy coverage
 fuzz-build: $(FUZZ_BINS) $(FUZZ_B)/seeds/ok
 fuzz: fuzz-build ## run every libFuzzer target for FUZZ_SECONDS (60) each
 	@bash tests/fuzz/run_fuzz.sh $(FUZZ_B) $(FUZZ_SECONDS) $(FUZZ_TARGETS)
@@ -67,6 +67,31 @@ cppcheck: ## cppcheck on firmware/ and host/ (tests/analysis/cppcheck.supp.xml)
 	    || { echo "cppcheck FAILED: findings in firmware/ or host/ above"; exit 1; }
 	@echo "cppcheck: firmware/ and host/ clean (warning, portability, performance; 1 listed suppression)"
 
+# ---- clang-tidy on firmware/ and host/ -------------------------------------------
+# Checks: .clang-tidy (bugprone, cert, clang-analyzer, misc and eight chosen
+# readability checks; docs/faults.md gives the reason for each check left
+# out). Every finding is an error. A NOLINT must name its check and give a
+# reason on the same line. The probe must be reported, so a gate that
+# stopped reporting fails too. One file per clang-tidy process, two at once.
+CLANG_TIDY ?= clang-tidy
+TIDY_FW_FLAGS := -std=c11 -ffreestanding -Ifirmware
+TIDY_HOST_FLAGS := -std=c11 -D_DEFAULT_SOURCE -Ifirmware -Ihost
+clang-tidy: ## clang-tidy on firmware/ and host/ (.clang-tidy; docs/faults.md)
+	@command -v $(CLANG_TIDY) >/dev/null || { echo "clang-tidy FAILED: $(CLANG_TIDY) not found (bash .ci/deps.sh)"; exit 1; }
+	@out=$$($(CLANG_TIDY) --quiet tests/analysis/clang_tidy_probe.c -- $(TIDY_FW_FLAGS) 2>&1); \
+	grep -q 'misc-no-recursion' <<<"$$out" && grep -q 'clang-analyzer-core.NullDereference' <<<"$$out" \
+	    || { echo "clang-tidy FAILED: the probe's two faults were not reported: $$out"; exit 1; }
+	@bad=$$(grep -n 'NOLINT' firmware/*.[ch] host/*.[ch] | grep -vE 'NOLINT(NEXTLINE)?\([a-z0-9.,-]+\): [^ ]'); \
+	[ -z "$$bad" ] || { echo "clang-tidy FAILED: a NOLINT without its check and reason: $$bad"; exit 1; }
+	@mkdir -p $(BUILD); t0=$$(date +%s); rc=0; \
+	printf '%s\n' $(FW_SRC) | xargs -P2 -I{} $(CLANG_TIDY) --quiet {} -- $(TIDY_FW_FLAGS) \
+	    > $(BUILD)/clang-tidy.txt 2>&1 || rc=1; \
+	printf '%s\n' $(wildcard host/*.c) | xargs -P2 -I{} $(CLANG_TIDY) --quiet {} -- $(TIDY_HOST_FLAGS) \
+	    >> $(BUILD)/clang-tidy.txt 2>&1 || rc=1; \
+	if [ $$rc -ne 0 ]; then grep -E '(warning|error):' $(BUILD)/clang-tidy.txt | sort -u; \
+	    echo "clang-tidy FAILED: findings in firmware/ or host/ above (all of it: $(BUILD)/clang-tidy.txt)"; exit 1; fi; \
+	echo "clang-tidy: firmware/ and host/ clean ($(words $(FW_SRC)) + $(words $(wildcard host/*.c)) files, .clang-tidy checks) in $$(( $$(date +%s) - t0 )) s"
+
 # ---- firmware coverage (gcovr) ---------------------------------------------------
 # A variant `cov`: the firmware at -O0 with --coverage, the host code as in
 # rel; the suites below run against it, then gcovr measures firmware/ only.
@@ -81,7 +106,7 @@ cov_LD := --coverage
 $(eval $(call variant,cov))
 COV_TESTS ?= $(filter test_chain test_crc16 test_crc32c test_cuc test_detect test_downlink test_encode test_fft \
                       test_fixed test_frame test_integrate test_link test_lz4 test_packet test_pfb test_sk test_switch \
-                      test_taps test_twiddle test_window test_decode test_vectors test_status test_acquisition,$(TESTS))
+                      test_taps test_twiddle test_window test_decode test_vectors test_status test_acquisition test_command,$(TESTS))
 COV_PREREQS = $(addprefix $(BUILD)/cov/,$(COV_TESTS)) $(BUILD)/cov/tidelock $(HIL_RUNNERS)
 coverage: $(COV_PREREQS) ## firmware line/branch coverage with gcovr (95 %/85 %)
 	@find $(BUILD)/cov -name '*.gcda' -delete
@@ -94,10 +119,11 @@ coverage: $(COV_PREREQS) ## firmware line/branch coverage with gcovr (95 %/85 %)
 # ---- what `make test` adds ------------------------------------------------------
 # Everything the gates need is a prerequisite here, so the sub-makes below
 # build nothing the parallel `make -j2 test` is building too.
-gates: fuzz-build $(BUILD)/rel/tidelock $(COV_PREREQS) ## fuzz each target FUZZ_CI_SECONDS (60), memcheck, cppcheck, coverage
+gates: fuzz-build $(BUILD)/rel/tidelock $(COV_PREREQS) ## fuzz each target FUZZ_CI_SECONDS (60), memcheck, cppcheck, clang-tidy, coverage
 	@rc=0; bash tests/fuzz/run_fuzz.sh $(FUZZ_B) $(FUZZ_CI_SECONDS) $(FUZZ_TARGETS) || rc=1; \
 	$(MAKE) --no-print-directory BUILD=$(BUILD) memcheck || rc=1; \
 	$(MAKE) --no-print-directory BUILD=$(BUILD) cppcheck || rc=1; \
+	$(MAKE) --no-print-directory BUILD=$(BUILD) clang-tidy || rc=1; \
 	$(MAKE) --no-print-directory BUILD=$(BUILD) coverage || rc=1; \
-	[ $$rc -eq 0 ] || { echo "gates FAILED (fuzzing, memcheck, cppcheck or coverage above)"; exit 1; }
+	[ $$rc -eq 0 ] || { echo "gates FAILED (fuzzing, memcheck, cppcheck, clang-tidy or coverage above)"; exit 1; }
 test: gates
