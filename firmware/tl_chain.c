@@ -176,7 +176,7 @@ static void copy_in(tl_chain *c, uint32_t input, const int16_t *src, uint32_t n)
 {
     int16_t *dst = tl_pfb_next_frame(&c->pfb[input]) + c->fill;
     const int16_t hi = (int16_t)c->clip_hi;
-    const int32_t div = (int32_t)1 << (16u - c->cfg.adc_bits);
+    const unsigned drop = 16u - c->cfg.adc_bits;
     uint32_t clips = 0;
     uint32_t hist[TL_ADC_HIST_BINS] = { 0 };
     uint64_t sumsq = 0; /* n <= 16384 codes of |code| <= 2^15: < 2^45 */
@@ -184,8 +184,10 @@ static void copy_in(tl_chain *c, uint32_t input, const int16_t *src, uint32_t n)
         const int16_t v = src[i];
         clips += (uint32_t)(v >= hi) + (uint32_t)(v == INT16_MIN);
         hist[(uint32_t)((int32_t)v + 32768) >> 12]++;
-        const int32_t code = (int32_t)v / div; /* exact for left-aligned codes */
-        sumsq += (uint64_t)((int64_t)code * code);
+        /* code = v / 2^drop truncated towards zero (exact for left-aligned
+         * codes); only its square is kept: |code| = |v| >> drop */
+        const uint32_t mag = (uint32_t)(v < 0 ? -(int32_t)v : (int32_t)v) >> drop;
+        sumsq += (uint64_t)mag * mag;
         dst[i] = v;
     }
     tl_count_add(&c->stats.adc_clips[input], clips);

@@ -20,6 +20,15 @@
 
 #include <stdint.h>
 
+/* Inline even across many call sites: the FFT and filterbank kernels are
+ * written once and instantiated with compile-time rounding constants for
+ * the default configuration (GCC and Clang; other compilers just inline). */
+#if defined(__GNUC__)
+#define TL_ALWAYS_INLINE inline __attribute__((always_inline))
+#else
+#define TL_ALWAYS_INLINE inline
+#endif
+
 typedef enum tl_rounding {
     TL_ROUND_TRUNCATE = 0,
     TL_ROUND_HALF_UP = 1,
@@ -62,6 +71,138 @@ static inline int64_t tl_round_shr_s64(int64_t v, unsigned s, tl_rounding mode)
     const int64_t q = tl_floor_shr_s64(v, s);
     const uint64_t low = (uint64_t)v & (((uint64_t)1 << s) - 1u);
     return q + (int64_t)tl_round_increment(low, (uint64_t)q & 1u, s, mode);
+}
+
+/* Branch-free twin of tl_round_shr_s64 for the inner loops, for
+ * -2^63 <= v < 3 * 2^61 (about 2^62.58) and 1 <= s <= 62: every FFT
+ * butterfly sum (|v| < 2^62.4) and filterbank accumulator (|v| <= 2^36) is
+ * in that range (docs/fixed-point.md sections 3 and 4). Same result for every
+ * such v, s and mode (tests/test_fixed.c compares the two).
+ *
+ * The value is moved to offset binary, U = v + 2^63 (0 <= U < 2^64, order
+ * kept, bits 0 .. 62 unchanged), so only unsigned shifts are used:
+ *     floor((v + bias) / 2^s) = ((U + bias) >> s) - 2^(63 - s)
+ * and every rounding mode is one bias:
+ *     truncate   bias = 0
+ *     half-up    bias = 2^(s-1)
+ *     half-even  bias = 2^(s-1) - 1 + (bit s of v)
+ * (half-even: low > half carries, low == half carries iff the floor is odd,
+ * low < half never). tl_round_bias precomputes the constant part. */
+typedef struct tl_round_bias {
+    uint64_t add;      /* 2^63 + constant part of the bias */
+    uint64_t odd_mask; /* 1 for half-even (bit s of v joins the bias), else 0 */
+    uint64_t sub;      /* 2^(63 - s) */
+    uint64_t add_max;  /* MAX * 2^s + constant part of the bias (s <= 32) */
+    unsigned s;
+    tl_rounding mode;
+} tl_round_bias;
+
+static TL_ALWAYS_INLINE tl_round_bias tl_round_bias_make(unsigned s, tl_rounding mode)
+{
+    const uint64_t half = (uint64_t)1 << (s - 1u);
+    tl_round_bias b;
+    b.add = ((uint64_t)1 << 63) + (mode == TL_ROUND_HALF_EVEN ? half - 1u : mode == TL_ROUND_HALF_UP ? half : 0u);
+    b.odd_mask = (mode == TL_ROUND_HALF_EVEN) ? 1u : 0u;
+    b.sub = (uint64_t)1 << (63u - s);
+    b.add_max = (b.add - ((uint64_t)1 << 63)) + (s <= 32u ? (uint64_t)TL_S32_SAT_MAX << s : 0u);
+    b.s = s;
+    b.mode = mode;
+    return b;
+}
+
+/* v / 2^b.s rounded as b was made for; -2^63 <= v < 3 * 2^61 (then
+ * U + bias < 2^63 + 3 * 2^61 + 2^61 = 2^64: no wrap). */
+static TL_ALWAYS_INLINE int64_t tl_round_shr_s64_fast(int64_t v, tl_round_bias b)
+{
+    const uint64_t u = (uint64_t)v + b.add + (((uint64_t)v >> b.s) & b.odd_mask);
+    /* u >> s < 2^(64 - s) <= 2^63: converts to int64 without loss */
+    return (int64_t)(u >> b.s) - (int64_t)b.sub;
+}
+
+/* tl_sat_s32(tl_round_shr_s64_fast(v, b), ovf) with the clamp done before
+ * the offset is removed: r = (U + bias) >> s is clamped to
+ * [2^(63-s) - MAX, 2^(63-s) + MAX] (unsigned compares), which needs one
+ * subtraction fewer when b is a compile-time constant with s <= 31 (the
+ * low 32 bits of 2^(63-s) are then zero). Same result, same count, for
+ * -2^63 <= v < 3 * 2^61 and 1 <= s <= 32 (then 2^(63-s) > MAX). */
+static TL_ALWAYS_INLINE int32_t tl_round_sat_s32_fast(int64_t v, tl_round_bias b, uint32_t *ovf)
+{
+    const uint64_t u = (uint64_t)v + b.add + (((uint64_t)v >> b.s) & b.odd_mask);
+    uint64_t r = u >> b.s;
+    const uint64_t lo = b.sub - (uint64_t)TL_S32_SAT_MAX, hi = b.sub + (uint64_t)TL_S32_SAT_MAX;
+    *ovf += (uint32_t)(r - lo > hi - lo); /* r < lo wraps to a large value */
+    r = (r < lo) ? lo : r;
+    r = (r > hi) ? hi : r;
+    return (int32_t)((int64_t)r - (int64_t)b.sub);
+}
+
+/* The in-range test of a whole butterfly at once: D = round(v / 2^s) + MAX
+ * (mode of b), computed as ((v + MAX 2^s + bias) mod 2^64) >> s, for
+ * -2^63 <= v < 3 * 2^61 and 1 <= s <= 32.
+ *   - round(v / 2^s) in [-MAX, MAX]  <=>  D <= 2 MAX  <=>  (D + 1) >> 32 == 0,
+ *     and then D - MAX is exactly tl_round_shr_s64(v, s, mode);
+ *   - above the range: D >= 2 MAX + 1 (no wrap: v + MAX 2^s + bias < 2^64);
+ *   - below the range: the sum wraps, so D >= 2^(63-s) + MAX >= 2^32 - 1.
+ * D < 2^63, so D + 1 never wraps. A caller ORs D + 1 over several outputs
+ * and, if bit 32 or above is set, redoes them with tl_round_sat_s32_fast. */
+static TL_ALWAYS_INLINE uint64_t tl_round_offset_s64(int64_t v, tl_round_bias b)
+{
+    return ((uint64_t)v + b.add_max + (((uint64_t)v >> b.s) & b.odd_mask)) >> b.s;
+}
+
+/* D - MAX for an in-range D (D <= 2 MAX), as int32. */
+static TL_ALWAYS_INLINE int32_t tl_round_offset_value(uint64_t d)
+{
+    return (int32_t)((int64_t)d - (int64_t)TL_S32_SAT_MAX);
+}
+
+/* r[i] = tl_sat_s32(tl_round_shr_s64(v[i], s, mode), ovf) for i < n,
+ * n = 4 or 8: the in-range fast path for the whole group, and the exact
+ * clamp-and-count path for the group only when one is out of range.
+ * Preconditions of tl_round_offset_s64. Written out value by value (no
+ * loop over an array): as a loop over v[], gcc vectorized it by storing the
+ * sums one by one and reloading them two at a time, a store-to-load
+ * forwarding stall that made the FFT slower than before although it ran
+ * fewer instructions (docs/performance.md). */
+static TL_ALWAYS_INLINE void tl_round_sat_s32_group(const int64_t *v, unsigned n, tl_round_bias b, int32_t *r,
+                                                    uint32_t *ovf)
+{
+    const uint64_t d0 = tl_round_offset_s64(v[0], b), d1 = tl_round_offset_s64(v[1], b);
+    const uint64_t d2 = tl_round_offset_s64(v[2], b), d3 = tl_round_offset_s64(v[3], b);
+    uint64_t any = (d0 + 1u) | (d1 + 1u) | (d2 + 1u) | (d3 + 1u);
+    uint64_t d4 = 0, d5 = 0, d6 = 0, d7 = 0;
+    if (n == 8u) {
+        d4 = tl_round_offset_s64(v[4], b);
+        d5 = tl_round_offset_s64(v[5], b);
+        d6 = tl_round_offset_s64(v[6], b);
+        d7 = tl_round_offset_s64(v[7], b);
+        any |= (d4 + 1u) | (d5 + 1u) | (d6 + 1u) | (d7 + 1u);
+    }
+    if ((any >> 32) == 0u) {
+        r[0] = tl_round_offset_value(d0);
+        r[1] = tl_round_offset_value(d1);
+        r[2] = tl_round_offset_value(d2);
+        r[3] = tl_round_offset_value(d3);
+        if (n == 8u) {
+            r[4] = tl_round_offset_value(d4);
+            r[5] = tl_round_offset_value(d5);
+            r[6] = tl_round_offset_value(d6);
+            r[7] = tl_round_offset_value(d7);
+        }
+    } else {
+        for (unsigned i = 0; i < n; i++)
+            r[i] = tl_round_sat_s32_fast(v[i], b, ovf);
+    }
+}
+
+/* tl_sat_s32 without branches: the same result and the same count. */
+static TL_ALWAYS_INLINE int32_t tl_sat_s32_fast(int64_t v, uint32_t *ovf)
+{
+    /* out of range iff v + MAX is outside [0, 2 MAX], as unsigned */
+    *ovf += (uint32_t)((uint64_t)(v + (int64_t)TL_S32_SAT_MAX) > 2u * (uint64_t)TL_S32_SAT_MAX);
+    v = (v > (int64_t)TL_S32_SAT_MAX) ? (int64_t)TL_S32_SAT_MAX : v;
+    v = (v < (int64_t)TL_S32_SAT_MIN) ? (int64_t)TL_S32_SAT_MIN : v;
+    return (int32_t)v;
 }
 
 /* v / 2^s rounded by mode for unsigned v, 0 <= s <= 63. Never overflows for

@@ -34,6 +34,44 @@ int16_t *tl_pfb_next_frame(tl_pfb *pfb)
     return &pfb->history[(uint32_t)slot * pfb->points];
 }
 
+/* y[n] = sat32(round(acc[n] / 2^s)), acc[n] = sum_p coef[p][n] frame[p][n]
+ * exact in int64 (|acc| <= 2^36), four outputs at a time through
+ * tl_round_sat_s32_group (N is a multiple of 4). Written once and
+ * instantiated with P and the rounding known at compile time for the
+ * default table, and with run-time values otherwise. */
+static TL_ALWAYS_INLINE void filter(const int16_t *const *frame, const int32_t *const *coef, uint32_t N, uint32_t P,
+                                    tl_round_bias rb, int32_t *y, uint32_t *ovf)
+{
+    for (uint32_t n = 0; n < N; n += 4u) {
+        int64_t a0 = 0, a1 = 0, a2 = 0, a3 = 0; /* four outputs in registers */
+#if defined(__GNUC__) && !defined(__clang__)
+#pragma GCC unroll 4
+#endif
+        for (uint32_t p = 0; p < P; p++) {
+            const int32_t *c = &coef[p][n];
+            const int16_t *f = &frame[p][n];
+            a0 += (int64_t)c[0] * f[0];
+            a1 += (int64_t)c[1] * f[1];
+            a2 += (int64_t)c[2] * f[2];
+            a3 += (int64_t)c[3] * f[3];
+        }
+        const int64_t acc[4] = { a0, a1, a2, a3 };
+        tl_round_sat_s32_group(acc, 4u, rb, &y[n], ovf);
+    }
+}
+
+/* The same with S = 15 (no output shift): y[n] = sat32(acc[n]). */
+static void filter_unshifted(const int16_t *const *frame, const int32_t *const *coef, uint32_t N, uint32_t P,
+                             int32_t *y, uint32_t *ovf)
+{
+    for (uint32_t n = 0; n < N; n++) {
+        int64_t acc = 0;
+        for (uint32_t p = 0; p < P; p++)
+            acc += (int64_t)coef[p][n] * frame[p][n];
+        y[n] = tl_sat_s32_fast(acc, ovf);
+    }
+}
+
 int tl_pfb_commit(tl_pfb *pfb, int32_t *y, uint32_t *sat)
 {
     const uint32_t P = pfb->taps;
@@ -52,12 +90,13 @@ int tl_pfb_commit(tl_pfb *pfb, int32_t *y, uint32_t *sat)
         coef[p] = &pfb->table->coef[p * N];
     }
     uint32_t ovf = 0;
-    for (uint32_t n = 0; n < N; n++) {
-        int64_t acc = 0;
-        for (uint32_t p = 0; p < P; p++)
-            acc += (int64_t)coef[p][n] * frame[p][n];
-        y[n] = tl_sat_s32(tl_round_shr_s64(acc, pfb->out_shift, pfb->rounding), &ovf);
-    }
+    const unsigned sh = pfb->out_shift;
+    if (P == 4u && sh == 1u && pfb->rounding == TL_ROUND_HALF_EVEN)
+        filter(frame, coef, N, 4u, tl_round_bias_make(1u, TL_ROUND_HALF_EVEN), y, &ovf); /* the default table */
+    else if (sh != 0u)
+        filter(frame, coef, N, P, tl_round_bias_make(sh, pfb->rounding), y, &ovf);
+    else
+        filter_unshifted(frame, coef, N, P, y, &ovf);
     tl_count_add(sat, ovf);
     return 1;
 }

@@ -50,13 +50,9 @@ static void *run_segment(void *arg)
         snprintf(g->err, sizeof g->err, "%s: adc_bits %u out of range", g->meta, s->cfg.adc_bits);
         goto fail;
     }
-    int16_t *const drop[2] = { NULL, NULL };
-    for (uint64_t left = (uint64_t)g->first * N; left > 0;) {
-        const size_t n = left < TL_REPLAY_CHUNK ? (size_t)left : TL_REPLAY_CHUNK;
-        if (tl_sigmf_read(rd, drop, n, g->err, sizeof g->err) != 0)
-            goto fail;
-        left -= n;
-    }
+    /* to the segment's first frame: one seek for the fixed-size datatypes */
+    if (tl_sigmf_skip(rd, (uint64_t)g->first * N, g->err, sizeof g->err) != 0)
+        goto fail;
     tl_config cfg = s->cfg;
     cfg.integration = g->count;
     cfg.det_shift = g->det_shift;

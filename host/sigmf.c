@@ -1062,3 +1062,53 @@ fail:
     r->failed = 1;
     return -1;
 }
+
+int tl_sigmf_skip(tl_sigmf_reader *r, uint64_t n, char *err, size_t cap)
+{
+    if (r == NULL)
+        return -1;
+    if (r->failed) {
+        say(err, cap, "%s: reading stopped at an earlier error", r->info.data_path);
+        return -1;
+    }
+    const unsigned nc = r->info.channels;
+    if (r->info.is_complex) {
+        int16_t **none = calloc(nc, sizeof *none);
+        if (none == NULL) {
+            say(err, cap, "%s: out of memory", r->info.data_path);
+            r->failed = 1;
+            return -1;
+        }
+        int rc = 0;
+        for (uint64_t left = n; left > 0 && rc == 0;) {
+            const size_t k = left < (1u << 16) ? (size_t)left : (size_t)1 << 16;
+            rc = tl_sigmf_read(r, none, k, err, cap);
+            left -= k;
+        }
+        free(none);
+        return rc;
+    }
+    const uint64_t fb = r->info.frame_bytes;
+    const uint64_t in_buf = (r->len - r->pos) / fb;
+    const uint64_t here = n < in_buf ? n : in_buf;
+    r->pos += (size_t)(here * fb);
+    r->frames_used += here;
+    n -= here;
+    if (n == 0)
+        return 0;
+    if (n > r->frames_left) {
+        say(err, cap, "%s: cannot skip %llu more samples per channel: %llu left after %llu", r->info.data_path,
+            (unsigned long long)n, (unsigned long long)r->frames_left, (unsigned long long)r->frames_used);
+        r->failed = 1;
+        return -1;
+    }
+    if (n * fb > (uint64_t)INT64_MAX || fseeko(r->f, (off_t)(n * fb), SEEK_CUR) != 0) {
+        say(err, cap, "%s: cannot seek %llu bytes forward: %s", r->info.data_path, (unsigned long long)(n * fb),
+            strerror(errno));
+        r->failed = 1;
+        return -1;
+    }
+    r->frames_left -= n;
+    r->frames_used += n;
+    return 0;
+}

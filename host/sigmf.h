@@ -187,6 +187,17 @@ int tl_sigmf_set_adc_bits(tl_sigmf_reader *r, unsigned bits);
  * error the reader only returns errors. */
 int tl_sigmf_read(tl_sigmf_reader *r, int16_t *const *out, size_t n, char *err, size_t cap);
 
+/* Skip the next n samples of every channel without converting them. For the
+ * fixed-size real datatypes (ri16_le, ri8, rf32_le) the samples still in the
+ * block are dropped and the rest is passed over with one seek of the data
+ * file, so skipping costs no reading; ci16_le (whose interpolator needs
+ * every sample) reads and drops them. Skipped samples are not counted by
+ * tl_sigmf_rails/_clipped/_rounded, and a non-finite rf32_le value among
+ * them is not detected. Returns 0, or -1 with one line in err naming the
+ * data file (fewer than n samples left, a seek or read error); after an
+ * error the reader only returns errors. */
+int tl_sigmf_skip(tl_sigmf_reader *r, uint64_t n, char *err, size_t cap);
+
 /* Counts over the samples read so far, per channel: at a rail of the target
  * ADC (the firmware's clip definition), clipped by the conversion (beyond
  * the ADC's range), rounded (not on the ADC's code grid). */

@@ -497,6 +497,99 @@ static void count_add_saturates(void **state)
     assert_true(c == 0x7FFFFFFFu + 1000u);
 }
 
+/* ---- the branch-free twins used by the FFT and filterbank kernels ---------- */
+
+/* tl_round_shr_s64_fast, tl_round_sat_s32_fast, tl_round_offset_s64 and
+ * tl_round_sat_s32_group against the exact __int128 reference (ref_round and
+ * a clamp at +-(2^31 - 1)) over their whole documented domain
+ * -2^63 <= v < 3 * 2^61, 1 <= s <= 32 (62 for the first): random values at
+ * every magnitude, ties and near-ties at every shift, and the edges of the
+ * domain and of the int32 range. */
+static void fast_twins_match(void **state)
+{
+    (void)state;
+    tl_rng r;
+    tl_rng_seed(&r, tl_test_seed("fixed_fast_twins", 0xF457u));
+    const i128 vmax = ((i128)3 << 61) - 1, vmin = -((i128)1 << 63);
+    unsigned checked = 0, clamped = 0;
+    for (unsigned s = 1; s <= 62u; s++) {
+        for (unsigned m = 0; m < 3u; m++) {
+            const tl_round_bias b = tl_round_bias_make(s, modes[m]);
+            for (unsigned i = 0; i < 4000u; i++) {
+                i128 v;
+                const unsigned kind = i % 8u;
+                if (kind == 0u)
+                    v = (i128)s64_from_bits(tl_rng_u64(&r)); /* any bit pattern */
+                else if (kind == 1u)
+                    v = (i128)s64_from_bits(tl_rng_u64(&r) >> (tl_rng_u64(&r) % 64u)); /* any magnitude */
+                else if (kind == 2u)
+                    v = -(i128)s64_from_bits(tl_rng_u64(&r) >> (tl_rng_u64(&r) % 64u));
+                else if (kind == 3u || kind == 4u) { /* at and beside a tie */
+                    const i128 q = (i128)s64_from_bits(tl_rng_u64(&r)) >> (s + 1u);
+                    v = q * ((i128)1 << s) + ((i128)1 << (s - 1u)) + (i128)(tl_rng_u64(&r) % 3u) - 1;
+                } else if (kind == 5u) { /* around the int32 clamp points */
+                    const i128 edge = (i128)(i % 2u ? 1 : -1) * (((i128)TL_S32_SAT_MAX << s) + ((i128)1 << (s - 1u)));
+                    v = edge + (i128)(tl_rng_u64(&r) % 5u) - 2 + ((i128)(tl_rng_u64(&r) % 3u) - 1) * ((i128)1 << s);
+                } else if (kind == 6u)
+                    v = (i % 2u) ? vmax - (i128)(tl_rng_u64(&r) % 4u) : vmin + (i128)(tl_rng_u64(&r) % 4u);
+                else
+                    v = (i128)(int64_t)(tl_rng_u64(&r) % 1000u) - 500;
+                if (v > vmax)
+                    v = vmax;
+                if (v < vmin)
+                    v = vmin;
+                const int64_t v64 = (int64_t)v;
+                const i128 want = ref_round(v, s, modes[m]);
+                if ((i128)tl_round_shr_s64_fast(v64, b) != want)
+                    fail_msg("tl_round_shr_s64_fast(%lld, %u, %s) = %lld, exact %lld", (long long)v64, s,
+                             mode_names[m], (long long)tl_round_shr_s64_fast(v64, b), (long long)want);
+                if (s > 32u)
+                    continue;
+                const int out = want > (i128)TL_S32_SAT_MAX || want < -(i128)TL_S32_SAT_MAX;
+                const int32_t want32 = out ? (want > 0 ? TL_S32_SAT_MAX : -TL_S32_SAT_MAX) : (int32_t)want;
+                uint32_t ovf = 7;
+                const int32_t got = tl_round_sat_s32_fast(v64, b, &ovf);
+                if (got != want32 || ovf != 7u + (uint32_t)out)
+                    fail_msg("tl_round_sat_s32_fast(%lld, %u, %s) = %d (count +%u), exact %d (count +%d)",
+                             (long long)v64, s, mode_names[m], got, ovf - 7u, want32, out);
+                /* the group test: in range iff (D + 1) >> 32 == 0, and then D - MAX is the value */
+                const uint64_t d = tl_round_offset_s64(v64, b);
+                if (((d + 1u) >> 32 == 0u) == out || (!out && tl_round_offset_value(d) != want32))
+                    fail_msg("tl_round_offset_s64(%lld, %u, %s) = %llu: wrong for the exact %lld", (long long)v64,
+                             s, mode_names[m], (unsigned long long)d, (long long)want);
+                /* a group of 8 with this value in one slot and in-range values elsewhere */
+                int64_t g[8];
+                int32_t gr[8], gw[8];
+                for (unsigned k = 0; k < 8u; k++) {
+                    g[k] = (int64_t)(tl_rng_u64(&r) % 2000001u) - 1000000;
+                    gw[k] = (int32_t)ref_round(g[k], s, modes[m]);
+                }
+                g[i % 8u] = v64;
+                gw[i % 8u] = want32;
+                ovf = 0;
+                tl_round_sat_s32_group(g, 8u, b, gr, &ovf);
+                if (memcmp(gr, gw, sizeof gr) != 0 || ovf != (uint32_t)out)
+                    fail_msg("tl_round_sat_s32_group with %lld in slot %u, s %u, %s: wrong result or count",
+                             (long long)v64, i % 8u, s, mode_names[m]);
+                /* and a group of 4, the value in slot i mod 4 */
+                g[i % 8u] = g[(i + 4u) % 8u];
+                gw[i % 8u] = gw[(i + 4u) % 8u];
+                g[i % 4u] = v64;
+                gw[i % 4u] = want32;
+                ovf = 0;
+                tl_round_sat_s32_group(g, 4u, b, gr, &ovf);
+                if (memcmp(gr, gw, 4u * sizeof gr[0]) != 0 || ovf != (uint32_t)out)
+                    fail_msg("tl_round_sat_s32_group (4) with %lld in slot %u, s %u, %s: wrong result or count",
+                             (long long)v64, i % 4u, s, mode_names[m]);
+                clamped += (unsigned)out;
+                checked++;
+            }
+        }
+    }
+    assert_true(clamped > 1000u); /* the clamp paths were reached */
+    printf("    fast twins: %u values checked at s = 1 .. 32, %u of them clamped\n", checked, clamped);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -514,6 +607,7 @@ int main(void)
         cmocka_unit_test(sat_add_s64_edges),
         cmocka_unit_test(sat_add_random_vs_int128),
         cmocka_unit_test(count_add_saturates),
+        cmocka_unit_test(fast_twins_match),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -929,6 +929,74 @@ static void test_reader_ri8(void **state)
     }
 }
 
+/* tl_sigmf_skip: reading a samples, skipping m and reading on gives the
+ * samples at a + m onwards, exactly as reading and dropping them does
+ * (the file's own values are the oracle: sample i of channel c is a known
+ * function of i), across block boundaries (4096-byte blocks = 1024 frames),
+ * for ri16_le, ri8 and ci16_le (which reads and drops); skipping past the
+ * end is refused with one line naming the data file. */
+static void test_reader_skip(void **state)
+{
+    (void)state;
+    enum { F = 3000 };
+    static int16_t v16[2 * F];
+    static int8_t v8[2 * F];
+    for (int i = 0; i < F; i++) {
+        v16[2 * i] = (int16_t)((i * 37) % 65536 - 32768);
+        v16[2 * i + 1] = (int16_t)(-(i * 11) % 30000);
+        v8[2 * i] = (int8_t)(i % 256 - 128);
+        v8[2 * i + 1] = (int8_t)(-(i % 100));
+    }
+    char m16[300], m8[300]; /* handmade returns a static buffer */
+    snprintf(m16, sizeof m16, "%s",
+             handmade("skip16", "\"core:datatype\": \"ri16_le\", \"core:num_channels\": 2", v16, sizeof v16));
+    snprintf(m8, sizeof m8, "%s", handmade("skip8", "\"core:datatype\": \"ri8\", \"core:num_channels\": 2", v8, sizeof v8));
+    const uint64_t cases[][2] = { { 0, 0 }, { 0, 1 }, { 0, 1024 }, { 5, 1019 }, { 5, 2000 }, { 1023, 1 },
+                                  { 1024, 1024 }, { 100, 2890 }, { 0, 2995 } };
+    for (int type = 0; type < 2; type++) {
+        for (size_t c = 0; c < sizeof cases / sizeof cases[0]; c++) {
+            tl_sigmf_reader *r = open_ok(type == 0 ? m16 : m8, 4096);
+            const uint64_t a = cases[c][0], m = cases[c][1];
+            int16_t x[F], y[F];
+            int16_t *const out[2] = { x, y };
+            char err[512];
+            if (a > 0)
+                assert_int_equal(tl_sigmf_read(r, out, (size_t)a, err, sizeof err), 0);
+            assert_int_equal(tl_sigmf_skip(r, m, err, sizeof err), 0);
+            assert_int_equal(tl_sigmf_read(r, out, 5, err, sizeof err), 0);
+            for (int k = 0; k < 5; k++) {
+                const uint64_t i = a + m + (uint64_t)k;
+                const int16_t e0 = type == 0 ? v16[2 * i] : (int16_t)(v8[2 * i] * 256);
+                const int16_t e1 = type == 0 ? v16[2 * i + 1] : (int16_t)(v8[2 * i + 1] * 256);
+                if (x[k] != e0 || y[k] != e1)
+                    fail_msg("type %d, read %llu, skip %llu: sample %llu is (%d, %d), the file has (%d, %d)", type,
+                             (unsigned long long)a, (unsigned long long)m, (unsigned long long)i, x[k], y[k], e0, e1);
+            }
+            /* past the end: refused, one line naming the data file */
+            assert_int_equal(tl_sigmf_skip(r, F, err, sizeof err), -1);
+            assert_non_null(strstr(err, type == 0 ? "skip16.sigmf-data" : "skip8.sigmf-data"));
+            assert_null(strchr(err, '\n'));
+            tl_sigmf_close(r);
+        }
+    }
+    /* ci16_le: skip = read and drop (the interpolator sees every sample) */
+    static int16_t cz[2 * F];
+    for (int i = 0; i < 2 * F; i++)
+        cz[i] = (int16_t)((i * 97) % 20000 - 10000);
+    const char *mc = handmade("skipc", "\"core:datatype\": \"ci16_le\"", cz, sizeof cz);
+    tl_sigmf_reader *r1 = open_ok(mc, 4096), *r2 = open_ok(mc, 4096);
+    int16_t p[2000], q[2000];
+    int16_t *const o1[1] = { p }, *const o2[1] = { q };
+    char err[512];
+    assert_int_equal(tl_sigmf_read(r1, o1, 1500, err, sizeof err), 0);
+    assert_int_equal(tl_sigmf_read(r1, o1, 100, err, sizeof err), 0);
+    assert_int_equal(tl_sigmf_skip(r2, 1500, err, sizeof err), 0);
+    assert_int_equal(tl_sigmf_read(r2, o2, 100, err, sizeof err), 0);
+    assert_memory_equal(p, q, 100 * sizeof *p);
+    tl_sigmf_close(r1);
+    tl_sigmf_close(r2);
+}
+
 static void put_f32(unsigned char *p, float x)
 {
     uint32_t u;
@@ -1220,6 +1288,7 @@ int main(int argc, char **argv)
         cmocka_unit_test(test_reader_rf32),
         cmocka_unit_test(test_reader_ri16),
         cmocka_unit_test(test_reader_ci16),
+        cmocka_unit_test(test_reader_skip),
         cmocka_unit_test(test_replay_complex_cli),
         cmocka_unit_test(test_streaming_bounded_memory),
     };
