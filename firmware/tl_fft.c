@@ -204,7 +204,7 @@ void tl_fft_execute(tl_fft *f, const int32_t *y, int32_t *X, uint32_t sat[TL_MAX
     const uint32_t L = f->size;
     int32_t *w = f->work;
     for (uint32_t pos = 0; pos < L; pos++) {
-        const uint32_t n = f->perm[pos];
+        const uint32_t n = f->perm[pos] & (L - 1u); /* a flipped entry cannot index outside y */
         w[2u * pos] = y[2u * n];
         w[2u * pos + 1u] = y[2u * n + 1u];
     }
