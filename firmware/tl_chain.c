@@ -1,5 +1,6 @@
 /* tl_chain.c - the spectrometer chain (see tl_chain.h). */
 #include "tl_chain.h"
+#include <stddef.h>
 #include <string.h>
 
 void tl_config_default(tl_config *cfg)
@@ -113,6 +114,7 @@ tl_status tl_chain_init(tl_chain *c, const tl_config *cfg, const uint8_t *taps_i
     if (st != TL_OK)
         return st;
     c->initialised = 0;
+    memset(&c->fft, 0, offsetof(tl_fft, work)); /* padding and unused entries too: the scrubber's CRC covers them */
     st = tl_fft_init(&c->fft, cfg->points, cfg->fft_scale_mask, (tl_rounding)cfg->rounding);
     if (st == TL_OK)
         st = tl_switch_init(&c->sw, cfg->switch_steps, cfg->switch_state, cfg->switch_dwell, cfg->switch_discard);
@@ -128,6 +130,9 @@ tl_status tl_chain_init(tl_chain *c, const tl_config *cfg, const uint8_t *taps_i
     c->index = 0;
     c->frames = 0;
     st = start(c);
+    if (st != TL_OK)
+        return st;
+    st = tl_scrub_arm(&c->scrub, c, TL_SCRUB_DEFAULT_PERIOD, 0);
     if (st != TL_OK)
         return st;
     c->initialised = TL_CHAIN_MAGIC;
@@ -149,7 +154,23 @@ tl_status tl_chain_load_taps(tl_chain *c, const uint8_t *taps_image, size_t imag
     st = tl_taps_load_image(&c->taps, taps_image, image_len);
     if (st != TL_OK)
         return st;
-    return start(c);
+    st = start(c);
+    if (st != TL_OK)
+        return st;
+    return tl_scrub_arm(&c->scrub, c, c->scrub.period, 1);
+}
+
+tl_status tl_chain_set_scrub_period(tl_chain *c, uint32_t period)
+{
+    if (c == NULL)
+        return TL_E_NULL;
+    if (c->initialised != TL_CHAIN_MAGIC)
+        return TL_E_NOT_INIT;
+    if (period > TL_SCRUB_MAX_PERIOD)
+        return TL_E_SCRUB;
+    c->scrub.period = period == 0u ? TL_SCRUB_DEFAULT_PERIOD : period;
+    c->scrub.countdown = c->scrub.period;
+    return TL_OK;
 }
 
 tl_status tl_chain_reset(tl_chain *c)
@@ -169,6 +190,138 @@ uint32_t tl_chain_state(const tl_chain *c)
 int tl_chain_ready(const tl_chain *c)
 {
     return c != NULL && c->initialised == TL_CHAIN_MAGIC && c->ready != 0u;
+}
+
+/* ---- upset guards (tl_scrub.h) ---------------------------------------- */
+
+static int rounding_ok(uint32_t r)
+{
+    return r <= (uint32_t)TL_ROUND_HALF_EVEN;
+}
+
+/* Every configuration field the processing uses as an index, a loop bound,
+ * a divisor or a shift, range-checked (the CRC check finds wrong values;
+ * this finds unsafe ones at once, between pieces of one frame too). */
+static int params_safe(const tl_chain *c)
+{
+    const tl_config *g = &c->cfg;
+    const uint32_t N = g->points, L = N / 2u;
+    if (N < TL_MIN_POINTS || N > TL_MAX_POINTS || (N & (N - 1u)) != 0u || g->inputs < 1u ||
+        g->inputs > TL_MAX_INPUTS || g->adc_bits < TL_MIN_ADC_BITS || g->adc_bits > TL_MAX_ADC_BITS ||
+        g->det_shift > TL_MAX_DET_SHIFT || !rounding_ok(g->rounding) || g->integration < 1u ||
+        g->integration > TL_MAX_INTEGRATION)
+        return 0;
+    for (uint32_t i = 0; i < g->inputs; i++) {
+        const tl_pfb *p = &c->pfb[i];
+        if (p->table != &c->taps || p->points != N || p->taps < 1u || p->taps > TL_MAX_TAPS ||
+            p->out_shift > TL_TAPS_MAX_SHIFT + TL_PFB_INPUT_FRAC_BITS - TL_PFB_OUTPUT_FRAC_BITS ||
+            !rounding_ok((uint32_t)p->rounding))
+            return 0;
+    }
+    const tl_fft *f = &c->fft;
+    if (f->size != L || f->stages < 1u || f->stages > TL_MAX_FFT_STAGES || f->split_shift > 1u ||
+        !rounding_ok((uint32_t)f->rounding))
+        return 0;
+    uint32_t n_prev = 1u;
+    for (uint32_t st = 0; st < f->stages; st++) {
+        if ((f->radix[st] != 2u && f->radix[st] != 4u) || f->shift[st] > 2u)
+            return 0;
+        if (f->radix[st] == 4u && (f->tw_offset[st] > 2u * TL_MAX_CHANNELS ||
+                                   6u * n_prev > 2u * TL_MAX_CHANNELS - f->tw_offset[st]))
+            return 0;
+        n_prev *= f->radix[st];
+        if (n_prev > L)
+            return 0;
+    }
+    if (n_prev != L)
+        return 0;
+    const tl_switch *w = &c->sw;
+    if (w->steps > TL_MAX_SWITCH_STEPS)
+        return 0;
+    for (uint32_t i = 0; i < w->steps; i++)
+        if (w->state[i] >= TL_STATES || w->dwell[i] < 1u)
+            return 0;
+    const tl_sk *k = &c->sk;
+    if ((k->m != 0u && (k->m < TL_SK_MIN_SPECTRA || k->m > TL_SK_MAX_SPECTRA)) || k->n < 1u ||
+        k->n > TL_SK_MAX_ACCUMULATE || k->channels != L || k->inputs != g->inputs)
+        return 0;
+    for (uint32_t s = 0; s < TL_STATES; s++)
+        if (c->integ[s].channels != L)
+            return 0;
+    return 1;
+}
+
+/* Range-check the running state and repair what is out of range (the
+ * configuration is safe here). Returns 1 if anything was repaired. */
+static int repair_state(tl_chain *c)
+{
+    int bad = 0;
+    const uint32_t N = c->cfg.points;
+    if (c->fill >= N) {
+        c->fill = 0u;
+        bad = 1;
+    }
+    for (uint32_t i = 0; i < c->cfg.inputs; i++) {
+        tl_pfb *p = &c->pfb[i];
+        if (p->newest >= p->taps) {
+            p->newest = p->taps - 1u;
+            bad = 1;
+        }
+        if (p->frames > p->taps) {
+            p->frames = p->taps;
+            bad = 1;
+        }
+    }
+    tl_switch *w = &c->sw;
+    if ((w->steps == 0u && (w->step | w->in_step) != 0u) ||
+        (w->steps > 0u && (w->step >= w->steps || w->in_step >= w->dwell[w->step]))) {
+        w->step = 0u;
+        w->in_step = 0u;
+        bad = 1;
+    }
+    tl_sk *k = &c->sk;
+    if (k->inner >= k->n || k->count > k->m || (k->m != 0u && k->count == k->m && !c->sk_ready) ||
+        (k->m == 0u && (k->inner | k->count) != 0u)) {
+        k->inner = 0u;
+        k->count = 0u;
+        bad = 1;
+    }
+    if (c->sk_ready > 1u || (c->sk_ready != 0u && (k->m == 0u || k->count != k->m))) {
+        c->sk_ready = 0u;
+        bad = 1;
+    }
+    uint64_t sum = c->discarded;
+    for (uint32_t s = 0; s < TL_STATES; s++)
+        sum += c->integ[s].spectra;
+    if (sum != c->spectra || c->spectra > c->cfg.integration) {
+        c->spectra = sum > c->cfg.integration ? c->cfg.integration : (uint32_t)sum;
+        bad = 1;
+    }
+    const uint32_t due = c->spectra >= c->cfg.integration ? 1u : 0u;
+    if (c->ready != due) {
+        c->ready = due;
+        bad = 1;
+    }
+    if (bad)
+        tl_scrub_state_fault(&c->scrub);
+    return bad;
+}
+
+/* Make the context safe and right to run: check the configuration against
+ * its stored CRC (restoring it when it differs), then range-check it and
+ * the running state, repairing the state. Returns 0 when the configuration
+ * is still unsafe (its protected copy is bad too): the caller must not
+ * process. */
+static int guard(tl_chain *c)
+{
+    if (tl_scrub_check(&c->scrub, c, TL_SCRUB_CONFIG))
+        (void)tl_scrub_check(&c->scrub, c, TL_SCRUB_FFT); /* the plan is rebuilt from it */
+    if (!params_safe(c)) {
+        tl_scrub_state_fault(&c->scrub);
+        return 0;
+    }
+    (void)repair_state(c);
+    return 1;
 }
 
 /* Copy n samples of one input into the frame slot, counting ADC clips. */
@@ -202,6 +355,12 @@ static void copy_in(tl_chain *c, uint32_t input, const int16_t *src, uint32_t n)
  * falls in the discard window after a change). */
 static void process_frame(tl_chain *c)
 {
+    /* configuration checked whole, then one slice of the tables */
+    if (!guard(c)) {
+        c->frames++;
+        return;
+    }
+    (void)tl_scrub_spectrum(&c->scrub, c);
     const uint32_t channels = c->cfg.points / 2u;
     const unsigned shift = (unsigned)c->cfg.det_shift;
     const tl_rounding mode = (tl_rounding)c->cfg.rounding;
@@ -262,11 +421,15 @@ tl_status tl_chain_push(tl_chain *c, const int16_t *in0, const int16_t *in1, siz
         return TL_E_NOT_INIT;
     if (count > 0u && (in0 == NULL || (c->cfg.inputs == 2u && in1 == NULL)))
         return TL_E_NULL;
+    if (!guard(c))
+        return TL_E_NOT_INIT;
     if (c->ready || c->sk_ready)
         return TL_E_BUSY;
-    const uint32_t N = c->cfg.points;
     size_t done = 0;
     while (done < count && !c->ready && !c->sk_ready) {
+        if (!guard(c))
+            break;
+        const uint32_t N = c->cfg.points;
         const size_t room = N - c->fill;
         const uint32_t n = (uint32_t)((count - done < room) ? (count - done) : room);
         copy_in(c, 0u, in0 + done, n);
@@ -333,10 +496,17 @@ tl_status tl_chain_take(tl_chain *c, tl_product *out)
         return TL_E_NULL;
     if (c->initialised != TL_CHAIN_MAGIC)
         return TL_E_NOT_INIT;
+    if (!guard(c))
+        return TL_E_NOT_INIT;
     if (!c->ready)
         return TL_E_EMPTY;
     if (c->sk_ready)
         return TL_E_BUSY;
+    /* release check: every table and the configuration whole, so whatever
+     * was corrupted during this integration is found before it leaves */
+    (void)tl_scrub_all(&c->scrub, c);
+    if (!guard(c))
+        return TL_E_NOT_INIT;
     const uint32_t channels = c->cfg.points / 2u;
     const tl_integrator *ant = &c->integ[TL_STATE_ANTENNA];
     const int two = c->cfg.inputs == 2u;
@@ -389,6 +559,16 @@ tl_status tl_chain_take(tl_chain *c, tl_product *out)
             cs->flags[k] = in ? it->flags[k] : 0u;
         }
     }
+    const uint8_t upset = (c->scrub.touched | c->scrub.touched_copy) != 0u ? (uint8_t)TL_FLAG_UPSET : 0u;
+    for (uint32_t k = 0; k < channels; k++) {
+        out->flags[k] = (uint8_t)(out->flags[k] | upset);
+        for (uint32_t s = 0; s < TL_STATES - 1u; s++)
+            out->cal[s].flags[k] = (uint8_t)(out->cal[s].flags[k] | upset);
+    }
+    out->upset = upset ? 1u : 0u;
+    out->scrub = c->scrub.counts;
+    c->scrub.touched = 0u;
+    c->scrub.touched_copy = 0u;
     c->index++;
     start_integration(c);
     return TL_OK;
@@ -404,6 +584,8 @@ tl_status tl_chain_take_sk(tl_chain *c, tl_sk_block *out)
     if (c == NULL || out == NULL)
         return TL_E_NULL;
     if (c->initialised != TL_CHAIN_MAGIC)
+        return TL_E_NOT_INIT;
+    if (!guard(c))
         return TL_E_NOT_INIT;
     if (!c->sk_ready)
         return TL_E_EMPTY;

@@ -30,6 +30,21 @@
  * follow it (P = taps) are computed but not integrated: their filterbank
  * history holds frames from before the gap (docs/fixed-point.md, "Gaps").
  * They are counted in tl_product.discarded and in acq.gap_discarded.
+ *
+ * Upsets (tl_scrub.h, docs/faults.md): before every spectrum the chain
+ * checks its configuration against its stored CRC-32C and one slice of its
+ * tables, range-checks every field of the context it uses as an index, a
+ * loop bound or a shift (in push, before each piece of samples, and in
+ * take), and before releasing a product checks every table whole. A
+ * mismatch is restored from the protected copy; a running-state field out
+ * of range is repaired (frame fill, filterbank ring slot, switch step,
+ * spectral kurtosis counts, the spectra counters, which must add up). Either
+ * sets TL_FLAG_UPSET on every channel of the integration in progress. So no
+ * bit flipped in tables or configuration can change a released spectrum
+ * without the flag, and no bit flipped anywhere in the context can make the
+ * chain index outside its arrays or loop without bound. A flip in a running
+ * sum, a histogram count or a still-valid ring position is not detected
+ * (docs/faults.md gives the measured fractions).
  */
 #ifndef TL_CHAIN_H
 #define TL_CHAIN_H
@@ -42,6 +57,7 @@
 #include "tl_integrate.h"
 #include "tl_limits.h"
 #include "tl_pfb.h"
+#include "tl_scrub.h"
 #include "tl_status.h"
 #include "tl_sk.h"
 #include "tl_switch.h"
@@ -142,6 +158,9 @@ typedef struct tl_product {
     int64_t cross_im[TL_MAX_CHANNELS];
     uint8_t flags[TL_MAX_CHANNELS];                      /* TL_FLAG_* per channel */
     tl_cal_sums cal[TL_STATES - 1u];                     /* [0] load, [1] load + noise source */
+    uint32_t upset;           /* 1: a table, the configuration or the running state was found corrupted
+                               * during this integration (every channel carries TL_FLAG_UPSET) */
+    tl_scrub_counts scrub;    /* the scrubber's counters since init, at release */
 } tl_product;
 
 /* One block of spectral kurtosis sums (tl_sk.h), taken with
@@ -188,6 +207,7 @@ typedef struct tl_chain {
     uint64_t power[TL_MAX_CHANNELS];
     int64_t cross_re[TL_MAX_CHANNELS];
     int64_t cross_im[TL_MAX_CHANNELS];
+    tl_scrub scrub;           /* checks the tables and configuration above (tl_scrub.h) */
 } tl_chain;
 
 #define TL_CHAIN_MAGIC 0x544C4348u
@@ -223,6 +243,14 @@ tl_status tl_chain_init(tl_chain *c, const tl_config *cfg, const uint8_t *taps_i
  * running integration restart. Returns as tl_taps_load_image, plus
  * TL_E_NOT_INIT and TL_E_TABLE_MISMATCH. */
 tl_status tl_chain_load_taps(tl_chain *c, const uint8_t *taps_image, size_t image_len);
+
+/* Scrub period: check one slice of the tables every `period` frames
+ * (one per spectrum once the filterbank is full; tl_scrub.h; 0 = TL_SCRUB_DEFAULT_PERIOD, the value init sets). It does
+ * not change any output byte, only how soon a corrupted table is found
+ * within an integration (every table is checked whole before each release
+ * whatever the period). Returns TL_OK, TL_E_NULL, TL_E_NOT_INIT or
+ * TL_E_SCRUB (above TL_SCRUB_MAX_PERIOD; nothing changes). */
+tl_status tl_chain_set_scrub_period(tl_chain *c, uint32_t period);
 
 /* Restart: empty history, zero the running integration (counters since init kept). */
 tl_status tl_chain_reset(tl_chain *c);

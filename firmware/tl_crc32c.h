@@ -4,8 +4,9 @@
  * Parameters (RevEng catalogue name CRC-32/ISCSI): reflected polynomial
  * 0x82F63B78 (normal 0x1EDC6F41), initial value 0xFFFFFFFF, reflected input
  * and output, final xor 0xFFFFFFFF. Check value for the ASCII bytes
- * "123456789" is 0xE3069283. Bitwise implementation: no table, 8 steps per
- * byte; it runs only when a table is loaded or scrubbed.
+ * "123456789" is 0xE3069283. Two steps per byte through a 16-entry table
+ * (64 octets of constants); it runs when a table is loaded and when the
+ * scrubber checks tables and configuration (tl_scrub.h).
  *
  * Streaming use: c = TL_CRC32C_INIT; c = tl_crc32c_update(c, p, n) ...;
  * crc = tl_crc32c_final(c).

@@ -320,7 +320,19 @@ static size_t put_hk(tl_downlink *d, const tl_product *p, int taps_ok)
     tl_put_be32(u + o + 20u, tl_acq_duty_ppm(a));
     tl_put_be32(u + o + 24u, a->gap_discarded);
     tl_put_be32(u + o + 28u, a->abandoned);
-    return o + TL_DL_HK_ACQ_OCTETS;
+    o += TL_DL_HK_ACQ_OCTETS;
+    /* scrub block */
+    tl_put_be32(u + o, p->scrub.passes);
+    o += 4u;
+    for (uint32_t r = 0; r < TL_SCRUB_REGIONS; r++, o += 4u)
+        tl_put_be32(u + o, p->scrub.mismatches[r]);
+    for (uint32_t r = 0; r < TL_SCRUB_REGIONS; r++, o += 4u)
+        tl_put_be32(u + o, p->scrub.restores[r]);
+    tl_put_be32(u + o, p->scrub.state_faults);
+    u[o + 4u] = (uint8_t)(p->scrub.last_bad <= TL_SCRUB_LAST_STATE ? p->scrub.last_bad : TL_SCRUB_LAST_STATE);
+    u[o + 5u] = (uint8_t)(p->upset ? 1u : 0u);
+    o += 8u; /* and 2 reserved */
+    return o;
 }
 
 tl_status tl_downlink_product(tl_downlink *d, const tl_product *p, int taps_ok, tl_downlink_sink sink, void *user)
@@ -350,6 +362,8 @@ tl_status tl_downlink_product(tl_downlink *d, const tl_product *p, int taps_ok, 
         base |= TL_DL_F_ADC_CLIP;
     if (overflow)
         base |= TL_DL_F_OVERFLOW;
+    if (p->upset)
+        base |= TL_DL_F_UPSET;
     const uint32_t states = p->switch_steps > 0u ? TL_STATES : 1u;
     for (uint32_t s = 0; s < states; s++) {
         const uint64_t *a0 = s == 0u ? p->auto_power[0] : p->cal[s - 1u].auto_power[0];
@@ -428,10 +442,10 @@ tl_status tl_downlink_parse_hk(const uint8_t *user, size_t len, tl_dl_hk *h)
     if (len < 44u)
         return TL_E_FORMAT;
     const uint32_t s = user[21];
-    const uint32_t ver = user[0];
-    if ((ver != 1u && ver != TL_DL_HK_VERSION) || user[1] != TL_DL_KIND_HOUSEKEEPING || user[3] < 1u
-        || user[3] > TL_MAX_INPUTS || s < 1u || s > TL_MAX_FFT_STAGES + 1u
-        || len != (ver == 1u ? TL_DL_HK_V1_OCTETS(s) : TL_DL_HK_OCTETS(s)))
+    const uint32_t v = user[0];
+    if ((v != 1u && v != TL_DL_HK_VERSION) || user[1] != TL_DL_KIND_HOUSEKEEPING || user[3] < 1u ||
+        user[3] > TL_MAX_INPUTS || s < 1u || s > TL_MAX_FFT_STAGES + 1u ||
+        len != (v == 1u ? TL_DL_HK_V1_OCTETS(s) : TL_DL_HK_OCTETS(s)))
         return TL_E_FORMAT;
     tl_dl_hk r;
     memset(&r, 0, sizeof r);
@@ -466,7 +480,7 @@ tl_status tl_downlink_parse_hk(const uint8_t *user, size_t len, tl_dl_hk *h)
     for (uint32_t st = 0; st < 3u; st++)
         for (uint32_t q = 0; q < 4u; q++, o += 4u)
             r.acc_sat[st][q] = tl_get_be32(user + o);
-    if (ver == TL_DL_HK_VERSION) {
+    if (v == TL_DL_HK_VERSION) {
         r.has_acq = 1u;
         r.blocks_seen = tl_get_be32(user + o);
         r.blocks_processed = tl_get_be32(user + o + 4u);
@@ -475,6 +489,18 @@ tl_status tl_downlink_parse_hk(const uint8_t *user, size_t len, tl_dl_hk *h)
         r.duty_ppm = tl_get_be32(user + o + 20u);
         r.gap_discarded = tl_get_be32(user + o + 24u);
         r.abandoned = tl_get_be32(user + o + 28u);
+        o += TL_DL_HK_ACQ_OCTETS;
+        r.scrub.passes = tl_get_be32(user + o);
+        o += 4u;
+        for (uint32_t g = 0; g < TL_SCRUB_REGIONS; g++, o += 4u)
+            r.scrub.mismatches[g] = tl_get_be32(user + o);
+        for (uint32_t g = 0; g < TL_SCRUB_REGIONS; g++, o += 4u)
+            r.scrub.restores[g] = tl_get_be32(user + o);
+        r.scrub.state_faults = tl_get_be32(user + o);
+        r.scrub.last_bad = user[o + 4u];
+        r.upset = user[o + 5u];
+        if (r.scrub.last_bad > TL_SCRUB_LAST_STATE || r.upset > 1u)
+            return TL_E_FORMAT;
     }
     *h = r;
     return TL_OK;

@@ -61,9 +61,17 @@
  *          8 samples dropped (per input), 4 duty cycle in ppm
  *          (tl_acq_duty_ppm), 4 spectra discarded at gaps, 4 samples of
  *          frames abandoned at gaps (per input)
+ *   then   the scrub block (TL_DL_HK_SCRUB_OCTETS = 36; tl_scrub.h), counters
+ *          since init: 4 scrub passes completed; 4 x 3 mismatches found
+ *          (coefficient table, FFT tables, configuration); 4 x 3 restores;
+ *          4 running-state range faults repaired; 1 last region found bad
+ *          (0 none, 1 coefficient table, 2 FFT tables, 3 configuration, 4
+ *          running state); 1 this integration flagged upset (0 or 1); 2
+ *          reserved, zero
  * Its length is TL_DL_HK_OCTETS(s). The header version octet of a
- * housekeeping packet is TL_DL_HK_VERSION (2); the parser also reads
- * version 1 (no acquisition block, TL_DL_HK_V1_OCTETS(s)).
+ * housekeeping packet is TL_DL_HK_VERSION (2: the acquisition block, then
+ * the scrub block); the parser also reads version 1 (neither block,
+ * TL_DL_HK_V1_OCTETS(s)).
  *
  * Splitting: each packet takes as many channels as fit the configured
  * maximum packet length (and TL_ENCODE_MAX_CHANNELS). The encoder is tried
@@ -82,8 +90,8 @@
 #include "tl_packet.h"
 #include "tl_status.h"
 
-#define TL_DL_VERSION 1u
-#define TL_DL_HK_VERSION 2u /* housekeeping layout: 2 appends the acquisition block */
+#define TL_DL_VERSION 1u    /* science and spectral kurtosis headers */
+#define TL_DL_HK_VERSION 2u /* housekeeping: 2 appends the acquisition and the scrub blocks */
 #define TL_DL_KIND_SPECTRUM 1u
 #define TL_DL_KIND_HOUSEKEEPING 2u
 #define TL_DL_KIND_SK 3u
@@ -120,12 +128,15 @@
 #define TL_DL_F_ADC_CLIP 0x0002u  /* the integration saw ADC clips on some input */
 #define TL_DL_F_OVERFLOW 0x0004u  /* a filterbank or FFT stage saturated during the integration */
 #define TL_DL_F_BOUNDED 0x0008u   /* the payload is noise-bounded (lossy within step/2) */
+#define TL_DL_F_UPSET 0x0010u     /* the integration ran while a table, the configuration or the running state
+                                   * was found corrupted (TL_FLAG_UPSET on every channel; tl_scrub.h) */
 
 /* housekeeping length for s = FFT stages + 1 counters per input */
 #define TL_DL_HK_INPUT_OCTETS(s) (4u + 8u + 8u + 4u + 4u * (s) + 4u * TL_ADC_HIST_BINS)
 #define TL_DL_HK_V1_OCTETS(s) (44u + TL_MAX_INPUTS * TL_DL_HK_INPUT_OCTETS(s) + 48u)
 #define TL_DL_HK_ACQ_OCTETS 32u
-#define TL_DL_HK_OCTETS(s) (TL_DL_HK_V1_OCTETS(s) + TL_DL_HK_ACQ_OCTETS)
+#define TL_DL_HK_SCRUB_OCTETS 36u
+#define TL_DL_HK_OCTETS(s) (TL_DL_HK_V1_OCTETS(s) + TL_DL_HK_ACQ_OCTETS + TL_DL_HK_SCRUB_OCTETS)
 
 /* Smallest allowed maximum packet length for the downlink: the header,
  * a one-octet bitmap and one channel's payload (encoding header + LZ4
@@ -286,12 +297,16 @@ typedef struct tl_dl_hk {
     uint32_t blocks_seen, blocks_processed, blocks_dropped;
     uint64_t samples_dropped;
     uint32_t duty_ppm, gap_discarded, abandoned;
+    tl_scrub_counts scrub;   /* the scrub block (all zero in a version 1 packet) */
+    uint8_t upset;           /* 1: this integration is flagged upset */
 } tl_dl_hk;
 
 /* Parse the user data of a housekeeping packet. Checks: version 1 or 2,
- * kind 2, inputs 1 .. 2, FFT counters 1 .. TL_MAX_FFT_STAGES + 1, and len
- * exactly TL_DL_HK_V1_OCTETS(counters) (version 1: has_acq = 0, the
- * acquisition fields 0) or TL_DL_HK_OCTETS(counters) (version 2). Returns TL_OK, TL_E_NULL or TL_E_FORMAT;
+ * kind 2, inputs 1 .. 2, FFT counters 1 .. TL_MAX_FFT_STAGES + 1, len
+ * exactly TL_DL_HK_V1_OCTETS(counters) for version 1 (has_acq = 0, the
+ * acquisition and scrub fields 0) and TL_DL_HK_OCTETS(counters) for
+ * version 2, last region found bad 0 .. 4 and the upset octet 0 or 1.
+ * Returns TL_OK, TL_E_NULL or TL_E_FORMAT;
  * never reads beyond user[len - 1]; *h is written only on TL_OK. */
 tl_status tl_downlink_parse_hk(const uint8_t *user, size_t len, tl_dl_hk *h);
 

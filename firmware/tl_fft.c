@@ -145,9 +145,10 @@ static TL_ALWAYS_INLINE void first_radix2_k(tl_fft *f, const int32_t *y, uint32_
 {
     int32_t *w = f->work;
     const uint16_t *perm = f->perm;
+    const uint32_t mask = f->size - 1u; /* a flipped entry cannot index outside y */
     for (uint32_t b = 0; b < f->size; b += 2u) {
-        const int32_t *za = &y[2u * (uint32_t)perm[b]];
-        const int32_t *zb = &y[2u * (uint32_t)perm[b + 1u]];
+        const int32_t *za = &y[2u * ((uint32_t)perm[b] & mask)];
+        const int32_t *zb = &y[2u * ((uint32_t)perm[b + 1u] & mask)];
         const int64_t ar = za[0], ai = za[1], br = zb[0], bi = zb[1];
         const int64_t v[4] = { (ar + br) * one, (ai + bi) * one, (ar - br) * one, (ai - bi) * one };
         store_group(v, 4u, rb, &w[2u * b], ovf);
@@ -161,11 +162,12 @@ static TL_ALWAYS_INLINE void first_radix4_k(tl_fft *f, const int32_t *y, uint32_
 {
     int32_t *w = f->work;
     const uint16_t *perm = f->perm;
+    const uint32_t mask = f->size - 1u; /* a flipped entry cannot index outside y */
     for (uint32_t b = 0; b < f->size; b += 4u) {
-        const int32_t *z0 = &y[2u * (uint32_t)perm[b]];
-        const int32_t *z1 = &y[2u * (uint32_t)perm[b + 1u]];
-        const int32_t *z2 = &y[2u * (uint32_t)perm[b + 2u]];
-        const int32_t *z3 = &y[2u * (uint32_t)perm[b + 3u]];
+        const int32_t *z0 = &y[2u * ((uint32_t)perm[b] & mask)];
+        const int32_t *z1 = &y[2u * ((uint32_t)perm[b + 1u] & mask)];
+        const int32_t *z2 = &y[2u * ((uint32_t)perm[b + 2u] & mask)];
+        const int32_t *z3 = &y[2u * ((uint32_t)perm[b + 3u] & mask)];
         const int64_t s02r = (int64_t)z0[0] + z2[0], s02i = (int64_t)z0[1] + z2[1];
         const int64_t d02r = (int64_t)z0[0] - z2[0], d02i = (int64_t)z0[1] - z2[1];
         const int64_t s13r = (int64_t)z1[0] + z3[0], s13i = (int64_t)z1[1] + z3[1];

@@ -18,6 +18,8 @@
 #define TL_FLAG_SAT_AUTO1 0x02u  /* input 1 auto-power sum saturated */
 #define TL_FLAG_SAT_CROSS_RE 0x04u
 #define TL_FLAG_SAT_CROSS_IM 0x08u
+#define TL_FLAG_UPSET 0x10u      /* the integration ran while a table, the configuration or the chain's
+                                  * running state was found corrupted (tl_scrub.h): do not trust it */
 
 typedef struct tl_integrator {
     uint32_t channels;

@@ -34,6 +34,7 @@ const char *tl_status_name(tl_status st)
     case TL_E_TIME_RANGE: return "TL_E_TIME_RANGE";
     case TL_E_FIELD_RANGE: return "TL_E_FIELD_RANGE";
     case TL_E_SK: return "TL_E_SK";
+    case TL_E_SCRUB: return "TL_E_SCRUB";
     }
     return "TL_E_UNKNOWN";
 }
@@ -71,6 +72,7 @@ const char *tl_status_text(tl_status st)
     case TL_E_TIME_RANGE: return "time code: sample rate 0, or a time beyond 2^32 - 1 coarse seconds";
     case TL_E_FIELD_RANGE: return "a header field is wider than its bits (APID, SCID, VCID, count or flag)";
     case TL_E_SK: return "spectral kurtosis block must be 0 (off) or 16 to 65536 spectra, at most the integration";
+    case TL_E_SCRUB: return "scrub period must be 0 (default) to 65536 frames";
     }
     return "unknown status";
 }

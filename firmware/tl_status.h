@@ -39,7 +39,8 @@ typedef enum tl_status {
     TL_E_APID_FULL = 26,  /* packet writer: every one of its TL_PACKET_MAX_APIDS counters is in use */
     TL_E_TIME_RANGE = 27, /* time code: sample rate 0, or a time beyond the 32-bit coarse seconds */
     TL_E_FIELD_RANGE = 28, /* a header field (APID, SCID, VCID, count, flag) wider than its bits */
-    TL_E_SK = 29          /* spectral kurtosis block: 0 (off) or 16 .. 65536 spectra, at most the integration */
+    TL_E_SK = 29,         /* spectral kurtosis block: 0 (off) or 16 .. 65536 spectra, at most the integration */
+    TL_E_SCRUB = 30       /* scrub period outside 0 (default) .. 65536 frames */
 } tl_status;
 
 /* Short constant name of a status ("TL_E_POINTS"); never NULL. */

@@ -40,7 +40,8 @@ void tl_switch_reset(tl_switch *sw)
 
 uint32_t tl_switch_state(const tl_switch *sw)
 {
-    return sw->steps == 0u ? TL_STATE_ANTENNA : sw->state[sw->step];
+    /* bounded whatever a flipped bit left in step (tl_chain repairs it) */
+    return (sw->steps == 0u || sw->step >= TL_MAX_SWITCH_STEPS) ? TL_STATE_ANTENNA : sw->state[sw->step];
 }
 
 int tl_switch_keep(const tl_switch *sw)

@@ -36,4 +36,7 @@ int tl_cmd_vectors(int argc, char **argv);
 /* tidelock hil --target T [--timeout S] [--retries N] [--junit FILE] [--allow-hardware] VECTOR... */
 int tl_cmd_hil(int argc, char **argv);
 
+/* tidelock upset [--trials N] [--target LIST] [--seed S] [--flips K] [--scrub-period P] ... */
+int tl_cmd_upset(int argc, char **argv);
+
 #endif

@@ -494,6 +494,8 @@ static void stats_from_hk(tl_product *p, const tl_dl_hk *h)
         p->acq.gap_discarded = h->gap_discarded;
         p->acq.abandoned = h->abandoned;
     }
+    p->scrub = h->scrub;
+    p->upset = h->upset;
 }
 
 static void ring_add(tl_ground *g, uint32_t config_id, uint32_t index)
@@ -786,6 +788,8 @@ static uint8_t take_science(tl_ground *g, const tl_packet_view *pv, tl_ground_pa
         }
         const int sat = s.bitmap != NULL && ((s.bitmap[k / 8u] >> (7u - k % 8u)) & 1u);
         fl[c] = (uint8_t)(sat ? (fl[c] | satbit) : (fl[c] & (uint8_t)~satbit));
+        if (s.flags & TL_DL_F_UPSET)
+            fl[c] = (uint8_t)(fl[c] | TL_FLAG_UPSET);
     }
     check_complete(g, pr);
     return TL_GP_OK;
@@ -918,6 +922,23 @@ static void log_hk(tl_ground *g, const tl_dl_hk *h, uint64_t off)
         json_object_set_new(aq, "gap_discarded_spectra", json_integer(h->gap_discarded));
         json_object_set_new(aq, "abandoned_samples", json_integer(h->abandoned));
         json_object_set_new(o, "acquisition", aq);
+    }
+    if (h->version >= 2u) {
+        static const char *const region_names[] = { "coefficient_table", "fft_tables", "configuration" };
+        static const char *const last_names[] = { "none", "coefficient_table", "fft_tables", "configuration",
+                                                  "running_state" };
+        json_t *sc = json_object(), *mm = json_object(), *rs = json_object();
+        for (uint32_t r = 0; r < TL_SCRUB_REGIONS; r++) {
+            json_object_set_new(mm, region_names[r], json_integer(h->scrub.mismatches[r]));
+            json_object_set_new(rs, region_names[r], json_integer(h->scrub.restores[r]));
+        }
+        json_object_set_new(sc, "passes", json_integer(h->scrub.passes));
+        json_object_set_new(sc, "mismatches", mm);
+        json_object_set_new(sc, "restores", rs);
+        json_object_set_new(sc, "state_faults", json_integer(h->scrub.state_faults));
+        json_object_set_new(sc, "last_bad", json_string(last_names[h->scrub.last_bad <= 4u ? h->scrub.last_bad : 4u]));
+        json_object_set_new(sc, "upset", json_boolean(h->upset != 0u));
+        json_object_set_new(o, "scrub", sc);
     }
     char *js = json_dumps(o, JSON_COMPACT);
     json_decref(o);

@@ -155,6 +155,17 @@ static int merge(tl_product *out, const tl_product *p)
     sum_stats(&out->stats, &p->stats);
     for (uint32_t i = 0; i < 4u; i++)
         tl_count_add(&out->stats.acc_sat[i], p->stats.acc_sat[i]);
+    /* scrub counters (tl_scrub.h): summed over the segments' chains; each
+     * walks its own tables, so `passes` is not the serial run's count */
+    tl_count_add(&out->scrub.passes, p->scrub.passes);
+    tl_count_add(&out->scrub.state_faults, p->scrub.state_faults);
+    for (uint32_t r = 0; r < TL_SCRUB_REGIONS; r++) {
+        tl_count_add(&out->scrub.mismatches[r], p->scrub.mismatches[r]);
+        tl_count_add(&out->scrub.restores[r], p->scrub.restores[r]);
+    }
+    if (p->scrub.last_bad != TL_SCRUB_LAST_NONE)
+        out->scrub.last_bad = p->scrub.last_bad;
+    out->upset |= p->upset;
     int bad = 0;
     for (uint32_t k = 0; k < TL_MAX_CHANNELS; k++) {
         for (uint32_t i = 0; i < TL_MAX_INPUTS; i++)
