@@ -191,6 +191,10 @@ static const key_def keys[] = {
       "Fraction of the lunar night spent observing." },
     { "budget", "day_fraction", K_REAL, OFF(bud_day_fraction), 0, 0, 1, 1, NULL, 0, "",
       "Fraction of the lunar day spent observing." },
+    { "sensitivity", "hours", K_REAL, OFF(sens_hours), 0, 0.001, 1e7, 1, NULL, 0, "h",
+      "Co-added observing time the sensitivity budget and the fidelity margin are stated for." },
+    { "sensitivity", "duty_cycle", K_REAL, OFF(sens_duty), 0, 0.001, 1, 1, NULL, 0, "",
+      "Fraction of the observing time the spectrometer integrates (1 until an acquisition model sets it)." },
     { "output", "folder", K_TEXT, OFF(folder), SZ(folder), 1, TL_SCENARIO_PATH_MAX - 1, 1, NULL, 0, "",
       "Folder for the outputs (created if missing; -o overrides)." },
     { "output", "csv", K_BOOL, OFF(write_csv), 0, 0, 1, 1, NULL, 0, "", "Write the spectra as CSV." },
@@ -200,7 +204,7 @@ static const key_def keys[] = {
 
 static const char *const sections[] = { "scenario", "instrument", "integration", "sky",      "interference",
                                         "fidelity", "switching",   "fit",         "flagging", "downlink",
-                                        "budget",   "output" };
+                                        "budget",   "sensitivity", "output" };
 #define NSECTIONS (sizeof sections / sizeof sections[0])
 
 /* Fields that other keys determine. */
@@ -252,6 +256,8 @@ void tl_scenario_nominal(tl_scenario *s)
     s->bud_storage_bytes = 256e6;
     s->bud_night_fraction = 1.0;
     s->bud_day_fraction = 0.0;
+    s->sens_hours = 1000.0;
+    s->sens_duty = 1.0;
     sync_derived(s);
 }
 

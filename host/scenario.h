@@ -3,7 +3,7 @@
  *
  * A scenario file is INI (parsed with Debian's inih), one section per
  * concern: [scenario], [instrument], [integration], [sky], [interference],
- * [fidelity], [switching], [fit], [flagging], [downlink], [budget], [output]. Every key is optional (the built-in default fills
+ * [fidelity], [switching], [fit], [flagging], [downlink], [budget], [sensitivity], [output]. Every key is optional (the built-in default fills
  * it in), every given key is checked for type and range, and unknown
  * sections or keys, repeated keys, indented continuation lines, lines
  * longer than 199 characters, text after a section header, "key: value",
@@ -64,6 +64,9 @@ typedef struct tl_scenario {
     double bud_alloc_bytes_day; /* data volume allocated to the instrument per Earth day */
     double bud_storage_bytes; /* onboard storage for the instrument */
     double bud_night_fraction, bud_day_fraction; /* observing time per lunar night / day */
+    /* [sensitivity]: the co-added observation the sensitivity budget is for (sensitivity.h) */
+    double sens_hours;        /* co-added observing time, h */
+    double sens_duty;         /* fraction of that time the spectrometer integrates */
 } tl_scenario;
 
 /* The built-in default (docs/scenario-default.ini): the dark-ages band of

@@ -185,6 +185,8 @@ static void assert_scenario_equal(const tl_scenario *a, const tl_scenario *b, co
     SAME_S(folder);
     SAME_U(write_csv);
     SAME_U(write_npy);
+    SAME_D(sens_hours);
+    SAME_D(sens_duty);
 }
 
 /* ---- 1. the committed default file ---------------------------------------- */
@@ -288,6 +290,8 @@ static void modified(tl_scenario *s)
     s->bud_storage_bytes = 64e6;
     s->bud_night_fraction = 0.75;
     s->bud_day_fraction = 0.25;
+    s->sens_hours = 250.5;
+    s->sens_duty = 0.625;
     /* fields that follow their keys, as tl_scenario_load sets them */
     s->cfg.integration = s->spectra;
     s->sky.adc_bits = s->cfg.adc_bits;
@@ -304,8 +308,8 @@ static void test_round_trip_every_key(void **state)
     assert_int_equal(tl_scenario_check(&mod, NULL, err, sizeof err), 0);
     char *text = written(&mod);
     char *deftext = written(&def);
-    /* every one of the 55 key lines differs from the default file */
-    assert_int_equal(differing_lines(text, deftext), 55);
+    /* every one of the 57 key lines differs from the default file */
+    assert_int_equal(differing_lines(text, deftext), 57);
     expect_loads(text, &back);
     assert_scenario_equal(&back, &mod, "round trip");
     free(text);
@@ -400,6 +404,8 @@ static const bound bounds[] = {
     { "switching", "load_k", "1", "", "10000", "", "0.999", "10000.001", "a number from 1 to 10000 K" },
     { "switching", "noise_excess_k", "1", "", "10000000", "", "0.999", "10000001", "a number from 1 to 1e+07 K" },
     { "fit", "foreground_order", "1", "", "8", "", "0", "9", "an integer from 1 to 8" },
+    { "sensitivity", "hours", "0.001", "", "10000000", "", "0.000999", "10000001", "a number from 0.001 to 1e+07 h" },
+    { "sensitivity", "duty_cycle", "0.001", "", "1", "", "0.000999", "1.001", "a number from 0.001 to 1" },
 };
 #define NBOUNDS (sizeof bounds / sizeof bounds[0])
 
@@ -441,7 +447,7 @@ static void test_every_key_range_ends(void **state)
      * depend on other keys, tested on their own in test_interference_lists
      * and test_switching_and_fit_keys: carrier_mhz, carrier_dbfs, burst_mhz,
      * sequence, discard */
-    assert_int_equal(NBOUNDS, 52 - 5);
+    assert_int_equal(NBOUNDS, 52 - 5 + 2); /* + [sensitivity] hours, duty_cycle */
     for (size_t i = 0; i < NBOUNDS; i++) {
         const bound *b = &bounds[i];
         check_valid_end(b, b->lo, b->lo_with);
@@ -593,7 +599,7 @@ typedef struct case_ {
     const char *suffix; /* expected message after the path; NULL: loads */
 } case_;
 
-#define SECTIONS "(sections: scenario, instrument, integration, sky, interference, fidelity, switching, fit, flagging, downlink, budget, output)"
+#define SECTIONS "(sections: scenario, instrument, integration, sky, interference, fidelity, switching, fit, flagging, downlink, budget, sensitivity, output)"
 #define INSTRUMENT_KEYS                                                                                               \
     "(keys of [instrument]: sample_rate_mhz, adc_bits, adc_full_scale_v, dc_offset_lsb, inputs, channels, taps, window, "            \
     "fft_scaling, rounding, detection_shift)"
@@ -1034,7 +1040,7 @@ static void test_strict_syntax(void **state)
     /* a section name of any length is checked */
     expect_error("[qqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqq]\n",
                  ":1: [qqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqq]: unknown section "
-                 "(sections: scenario, instrument, integration, sky, interference, fidelity, switching, fit, flagging, downlink, budget, output)");
+                 "(sections: scenario, instrument, integration, sky, interference, fidelity, switching, fit, flagging, downlink, budget, sensitivity, output)");
 }
 
 /* Numbers are written so that they read back exactly. */
