@@ -13,7 +13,7 @@ FW_CFLAGS := -std=c11 -O2 -g -ffreestanding -Wall -Wextra -Wconversion -Wshadow 
 # bit-reproducible (no fused multiply-adds chosen by the compiler).
 HOST_CFLAGS := -std=c11 -O2 -g -D_DEFAULT_SOURCE -Wall -Wextra -Wshadow -Werror -ffp-contract=off
 INCLUDES := -Ifirmware -Ihost
-HOST_LIBS := -lfftw3 -ljansson -linih -llz4 -lm
+HOST_LIBS := -lfftw3 -ljansson -linih -llz4 -lcairo -lfontconfig -lm
 TEST_LIBS := -lcmocka
 
 FW_SRC := $(sort $(wildcard firmware/*.c))

@@ -3,6 +3,8 @@
 # Uses sudo when not root. --no-install-recommends keeps the install small.
 set -euo pipefail
 pkgs=(gcc make pkg-config libfftw3-dev libcmocka-dev libjansson-dev libinih-dev liblz4-dev python3-numpy
+      # plots of the report (host/plot.c): cairo for PNG and SVG, fontconfig to release its font cache
+      libcairo2-dev libfontconfig-dev
       # cross-target builds (hil/targets.mk): Cortex-M7 bare metal under QEMU, big-endian PowerPC under qemu-ppc
       gcc-arm-none-eabi libnewlib-arm-none-eabi qemu-system-arm gcc-powerpc-linux-gnu libc6-dev-powerpc-cross
       qemu-user

@@ -7,6 +7,7 @@
 
 #include "budget.h"
 #include "commands.h"
+#include "html_report.h"
 #include "run_outputs.h"
 #include "scenario.h"
 
@@ -25,7 +26,8 @@ static const char *const budget_help =
     "[processor] clock_mhz, the sustainable real-time fraction and the headroom.\n"
     "\n"
     "options:\n"
-    "  -o, --output DIR   also write DIR/budget.json (the folder is created if missing)\n"
+    "  -o, --output DIR   also write DIR/budget.json, DIR/budget.html and its figure budget.png/.svg\n"
+    "                     (the folder is created if missing)\n"
     "  -q, --quiet        print nothing but errors; the exit status tells whether it closes\n"
     "  -h, --help         this text\n"
     "exit status: 0 the budget closes, 1 it does not (or an error), 2 usage\n"
@@ -78,6 +80,10 @@ int tl_cmd_budget(int argc, char **argv)
         }
         if (!quiet)
             printf("wrote %s\n", path);
+        if (tl_html_report_budget(dir, &s, &b, quiet ? NULL : stdout, err, sizeof err) != 0) { /* budget.html */
+            fprintf(stderr, "tidelock budget: %s\n", err);
+            return EXIT_FAIL;
+        }
     }
     return b.closed ? EXIT_OK : EXIT_FAIL;
 }

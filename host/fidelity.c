@@ -254,10 +254,11 @@ tl_status tl_fidelity_run(const tl_fid_setup *su, tl_fid_result *res)
     tl_taps *ideal_taps = malloc(sizeof *ideal_taps);
     double *cq = malloc(sizeof(double) * TL_TAPS_MAX_COEFS), *ci = malloc(sizeof(double) * TL_TAPS_MAX_COEFS);
     int16_t *in0 = malloc(sizeof(int16_t) * N), *in1 = malloc(sizeof(int16_t) * N);
+    double *prod_tmp0 = calloc(K, sizeof(double)), *prod_tmp1 = calloc(K, sizeof(double));
     block_sums fa = { 0 }, fb = { 0 }, rq = { 0 }, ri = { 0 };
     tl_ref *refq = NULL, *refi = NULL;
     tl_status st = TL_E_NULL;
-    if (!chA || !chB || !prod || !ideal_taps || !cq || !ci || !in0 || !in1 || sums_alloc(&fa, J, K) ||
+    if (!chA || !chB || !prod || !ideal_taps || !cq || !ci || !in0 || !in1 || !prod_tmp0 || !prod_tmp1 || sums_alloc(&fa, J, K) ||
         sums_alloc(&fb, J, K) || sums_alloc(&rq, J, K) || sums_alloc(&ri, J, K))
         goto out;
 
@@ -314,10 +315,21 @@ tl_status tl_fidelity_run(const tl_fid_setup *su, tl_fid_result *res)
             res->sat_flags += prod->flags[k] != 0u;
         tl_chain_take(chB, prod);
         store_product(&fb, j, prod);
-        tl_ref_take(refq, at(&rq, 0, j), at(&rq, 1, j), at(&rq, 2, j), at(&rq, 3, j));
+        if (j < TL_FID_STATS_BLOCKS)
+            res->block_stats[j] = prod->stats;
+        res->ref_spectra[0] += tl_ref_take(refq, at(&rq, 0, j), at(&rq, 1, j), at(&rq, 2, j), at(&rq, 3, j));
         tl_ref_take(refi, at(&ri, 0, j), at(&ri, 1, j), at(&ri, 2, j), at(&ri, 3, j));
-        for (unsigned b = 1; b < TL_STATES; b++) { /* calibration states: not part of the fidelity figures */
-            tl_ref_take_state(refq, b, NULL, NULL, NULL, NULL);
+        for (uint32_t k = 0; k < K; k++) {
+            res->ref_auto[0][0][k] += at(&rq, 0, j)[k];
+            res->ref_auto[0][1][k] += at(&rq, 1, j)[k];
+        }
+        for (unsigned b = 1; b < TL_STATES; b++) { /* calibration states: not part of the fidelity figures,
+                                                      kept for the calibrated comparison */
+            res->ref_spectra[b] += tl_ref_take_state(refq, b, prod_tmp0, two ? prod_tmp1 : NULL, NULL, NULL);
+            for (uint32_t k = 0; k < K; k++) {
+                res->ref_auto[b][0][k] += prod_tmp0[k];
+                res->ref_auto[b][1][k] += two ? prod_tmp1[k] : 0.0;
+            }
             tl_ref_take_state(refi, b, NULL, NULL, NULL, NULL);
         }
         j++;
@@ -397,6 +409,8 @@ out:
     free(ci);
     free(in0);
     free(in1);
+    free(prod_tmp0);
+    free(prod_tmp1);
     res->status = st;
     return st;
 }

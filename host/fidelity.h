@@ -85,6 +85,8 @@ typedef struct tl_fid_metrics {
     double m_reach;
 } tl_fid_metrics;
 
+#define TL_FID_STATS_BLOCKS 1024u /* blocks whose own counters are kept (the scenario's maximum) */
+
 typedef struct tl_fid_result {
     uint32_t spectra, blocks, channels, band_lo, band_hi;
     uint32_t det_shift, flight_det_shift, flight_spectra;
@@ -96,6 +98,11 @@ typedef struct tl_fid_result {
     double noise_pred_lsb2;                   /* predicted E|e|^2 per channel */
     double twiddle_gain;                      /* predicted band power gain error of the quantized twiddles */
     double mean_power_lsb2[TL_MAX_INPUTS];    /* band mean of |X|^2 per spectrum, firmware LSB^2 */
+    double ref_auto[TL_STATES][TL_MAX_INPUTS][TL_MAX_CHANNELS]; /* the double reference (firmware's
+                                                 coefficients) per switch state, summed over blocks, in the
+                                                 firmware's units: the calibration of the reference */
+    uint32_t ref_spectra[TL_STATES];          /* spectra in those sums */
+    tl_stats block_stats[TL_FID_STATS_BLOCKS];/* the firmware's counters of each block (first blocks) */
     tl_status status;                         /* TL_OK or why the run stopped */
     tl_product product;                       /* the M-spectrum product: the J block products added
                                                  (equal to one M-spectrum integration, since sums are

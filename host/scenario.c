@@ -214,6 +214,10 @@ static const key_def keys[] = {
       "Payload encoding instructions per sample instant (one product's encoding over its samples)." },
     { "processor", "packets_ips", K_REAL, OFF(proc_ips[5]), 0, 0, 1e6, 1, NULL, 0, "instructions/sample",
       "Packet writing instructions per sample instant (headers, CRC, time; over the product's samples)." },
+    { "sensitivity", "hours", K_REAL, OFF(sens_hours), 0, 0.001, 1e7, 1, NULL, 0, "h",
+      "Co-added observing time the sensitivity budget and the fidelity margin are stated for." },
+    { "sensitivity", "duty_cycle", K_REAL, OFF(sens_duty), 0, 0.001, 1, 1, NULL, 0, "",
+      "Fraction of the observing time the spectrometer integrates (1 until an acquisition model sets it)." },
     { "output", "folder", K_TEXT, OFF(folder), SZ(folder), 1, TL_SCENARIO_PATH_MAX - 1, 1, NULL, 0, "",
       "Folder for the outputs (created if missing; -o overrides)." },
     { "output", "csv", K_BOOL, OFF(write_csv), 0, 0, 1, 1, NULL, 0, "", "Write the spectra as CSV." },
@@ -223,7 +227,7 @@ static const key_def keys[] = {
 
 static const char *const sections[] = { "scenario", "instrument", "integration", "sky",      "interference",
                                         "fidelity", "switching",   "fit",         "flagging", "downlink",
-                                        "budget",   "processor", "output" };
+                                        "budget",   "processor", "sensitivity", "output" };
 #define NSECTIONS (sizeof sections / sizeof sections[0])
 
 /* Fields that other keys determine. */
@@ -293,6 +297,8 @@ void tl_scenario_nominal(tl_scenario *s)
     s->proc_ips[4] = 0.332;
     s->proc_ips[5] = 1.846;
     /* PROC_IPS_END */
+    s->sens_hours = 1000.0;
+    s->sens_duty = 1.0;
     sync_derived(s);
 }
 

@@ -3,7 +3,7 @@
  *
  * A scenario file is INI (parsed with Debian's inih), one section per
  * concern: [scenario], [instrument], [integration], [sky], [interference],
- * [fidelity], [switching], [fit], [flagging], [downlink], [budget], [processor], [output]. Every key is optional (the built-in default fills
+ * [fidelity], [switching], [fit], [flagging], [downlink], [budget], [processor], [sensitivity], [output]. Every key is optional (the built-in default fills
  * it in), every given key is checked for type and range, and unknown
  * sections or keys, repeated keys, indented continuation lines, lines
  * longer than 199 characters, text after a section header, "key: value",
@@ -72,6 +72,9 @@ typedef struct tl_scenario {
     uint32_t proc_buffers;    /* capture buffers */
     double proc_ips[6];       /* instructions per sample instant (all inputs) by stage: filterbank, fft,
                                * detection, integration, encoding, packets */
+    /* [sensitivity]: the co-added observation the sensitivity budget is for (sensitivity.h) */
+    double sens_hours;        /* co-added observing time, h */
+    double sens_duty;         /* fraction of that time the spectrometer integrates */
 } tl_scenario;
 
 /* The built-in default (docs/scenario-default.ini): the dark-ages band of

@@ -12,6 +12,7 @@
 
 #include "atomic_file.h"
 #include "commands.h"
+#include "html_report.h"
 #include "report.h"
 #include "run.h"
 #include "run_outputs.h"
@@ -53,7 +54,9 @@ static const char *const run_help =
     "Run a scenario (the built-in default when no file is given): feed its ADC voltages to\n"
     "the firmware chain and to the FFTW double reference, print the fidelity figures, and\n"
     "write DIR/summary.json, DIR/scenario.ini (as resolved), and the integrated spectra as\n"
-    "CSV and .npy. Every file is written whole or not at all.\n"
+    "CSV and .npy. Then predict the feature's detection significance after [sensitivity] hours,\n"
+    "and write DIR/report.html with its figures (PNG and SVG). Every file is written whole or\n"
+    "not at all.\n"
     "\n"
     "options:\n"
     "  -o, --output DIR   output folder (default: the scenario's [output] folder)\n"
@@ -153,6 +156,12 @@ static int cmd_run(int argc, char **argv)
     if (!quiet)
         tl_report_print(stdout, "run", &s, r);
     if (tl_run_outputs_write(dir, &s, r, err, sizeof err) != 0) {
+        fprintf(stderr, "tidelock run: %s\n", err);
+        tl_run_release(r);
+        free(r);
+        return EXIT_FAIL;
+    }
+    if (tl_html_report_run(dir, &s, r, quiet ? NULL : stdout, err, sizeof err) != 0) { /* html_report.h */
         fprintf(stderr, "tidelock run: %s\n", err);
         tl_run_release(r);
         free(r);

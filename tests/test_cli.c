@@ -366,7 +366,13 @@ static void test_run_writes_outputs(void **state)
     const char *expected[] = { "summary.json",  "scenario.ini", "auto0.csv",         "auto1.csv",
                                "cross.csv",     "auto0.npy",    "auto1.npy",         "cross.npy",
                                "flags.npy",     "frequency_mhz.npy", "calibrated.csv", "calibrated.npy",
-                               "packets.bin",   "frames.bin" };
+                               "packets.bin",   "frames.bin",
+                               /* the report (html_report.h): the page and each figure as PNG and SVG */
+                               "report.html", "sensitivity.json", "sky_calibrated.png", "sky_calibrated.svg", "fixed_minus_float.png",
+                               "fixed_minus_float.svg", "fit_residuals.png", "fit_residuals.svg",
+                               "feature_vs_noise.png", "feature_vs_noise.svg", "channel_response.png",
+                               "channel_response.svg", "counters.png", "counters.svg", "compression.png",
+                               "compression.svg", "budget.png", "budget.svg" };
     const size_t nexp = sizeof expected / sizeof expected[0];
     DIR *d = opendir(dir);
     struct dirent *e;

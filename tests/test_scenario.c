@@ -192,6 +192,8 @@ static void assert_scenario_equal(const tl_scenario *a, const tl_scenario *b, co
     SAME_U(proc_buffers);
     for (int i_ = 0; i_ < 6; i_++)
         SAME_D(proc_ips[i_]);
+    SAME_D(sens_hours);
+    SAME_D(sens_duty);
 }
 
 /* ---- 1. the committed default file ---------------------------------------- */
@@ -302,6 +304,8 @@ static void modified(tl_scenario *s)
     s->proc_buffers = 4u;
     for (int i = 0; i < 6; i++)
         s->proc_ips[i] = 10.5 + i;
+    s->sens_hours = 250.5;
+    s->sens_duty = 0.625;
     /* fields that follow their keys, as tl_scenario_load sets them */
     s->cfg.integration = s->spectra;
     s->sky.adc_bits = s->cfg.adc_bits;
@@ -318,8 +322,8 @@ static void test_round_trip_every_key(void **state)
     assert_int_equal(tl_scenario_check(&mod, NULL, err, sizeof err), 0);
     char *text = written(&mod);
     char *deftext = written(&def);
-    /* every one of the 66 key lines differs from the default file */
-    assert_int_equal(differing_lines(text, deftext), 66);
+    /* every one of the 68 key lines differs from the default file */
+    assert_int_equal(differing_lines(text, deftext), 68);
     expect_loads(text, &back);
     assert_scenario_equal(&back, &mod, "round trip");
     free(text);
@@ -432,6 +436,8 @@ static const bound bounds[] = {
       "a number from 0 to 1e+06 instructions/sample" },
     { "processor", "packets_ips", "0", "", "1000000", "", "-0.001", "1000001",
       "a number from 0 to 1e+06 instructions/sample" },
+    { "sensitivity", "hours", "0.001", "", "10000000", "", "0.000999", "10000001", "a number from 0.001 to 1e+07 h" },
+    { "sensitivity", "duty_cycle", "0.001", "", "1", "", "0.000999", "1.001", "a number from 0.001 to 1" },
 };
 #define NBOUNDS (sizeof bounds / sizeof bounds[0])
 
@@ -473,7 +479,7 @@ static void test_every_key_range_ends(void **state)
      * depend on other keys, tested on their own in test_interference_lists
      * and test_switching_and_fit_keys: carrier_mhz, carrier_dbfs, burst_mhz,
      * sequence, discard */
-    assert_int_equal(NBOUNDS, 52 + 11 - 5); /* + the 11 [processor] keys */
+    assert_int_equal(NBOUNDS, 52 + 11 - 5 + 2); /* + the 11 [processor] keys, [sensitivity] hours, duty_cycle */
     for (size_t i = 0; i < NBOUNDS; i++) {
         const bound *b = &bounds[i];
         check_valid_end(b, b->lo, b->lo_with);
@@ -625,7 +631,7 @@ typedef struct case_ {
     const char *suffix; /* expected message after the path; NULL: loads */
 } case_;
 
-#define SECTIONS "(sections: scenario, instrument, integration, sky, interference, fidelity, switching, fit, flagging, downlink, budget, processor, output)"
+#define SECTIONS "(sections: scenario, instrument, integration, sky, interference, fidelity, switching, fit, flagging, downlink, budget, processor, sensitivity, output)"
 #define INSTRUMENT_KEYS                                                                                               \
     "(keys of [instrument]: sample_rate_mhz, adc_bits, adc_full_scale_v, dc_offset_lsb, inputs, channels, taps, window, "            \
     "fft_scaling, rounding, detection_shift)"
@@ -1070,7 +1076,7 @@ static void test_strict_syntax(void **state)
     /* a section name of any length is checked */
     expect_error("[qqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqq]\n",
                  ":1: [qqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqqq]: unknown section "
-                 "(sections: scenario, instrument, integration, sky, interference, fidelity, switching, fit, flagging, downlink, budget, processor, output)");
+                 "(sections: scenario, instrument, integration, sky, interference, fidelity, switching, fit, flagging, downlink, budget, processor, sensitivity, output)");
 }
 
 /* Numbers are written so that they read back exactly. */
