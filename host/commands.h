@@ -36,4 +36,10 @@ int tl_cmd_vectors(int argc, char **argv);
 /* tidelock hil --target T [--timeout S] [--retries N] [--junit FILE] [--allow-hardware] VECTOR... */
 int tl_cmd_hil(int argc, char **argv);
 
+/* tidelock sweep [SCENARIO.ini] --vary SECTION.KEY=V,... [--vary ...] --out DIR [--shard I/N] [--common-noise] [-q] */
+int tl_cmd_sweep(int argc, char **argv);
+
+/* tidelock merge SHARD.tlshard... --out DIR [-q] */
+int tl_cmd_merge(int argc, char **argv);
+
 #endif

@@ -41,6 +41,8 @@ static const char *const main_help =
     "  tables    write a filterbank coefficient table image, or the committed table sources\n"
     "  vectors   make or check the golden vectors (input and expected frame stream)\n"
     "  hil       run golden vectors on a target over the link protocol and compare\n"
+    "  sweep     run a grid of configurations into one table (CSV, JSON); shardable\n"
+    "  merge     combine sweep or replay shards into the outputs one machine writes\n"
     "  help      help on a command (tidelock help run)\n"
     "\n"
     "exit status: 0 success, 1 failure (bad scenario file, I/O error, fidelity FAIL), 2 usage\n"
@@ -309,6 +311,10 @@ int main(int argc, char **argv)
             return tl_cmd_vectors(2, (char *[]){ argv[2], "--help", NULL });
         if (strcmp(topic, "hil") == 0)
             return tl_cmd_hil(2, (char *[]){ argv[2], "--help", NULL });
+        if (strcmp(topic, "sweep") == 0)
+            return tl_cmd_sweep(2, (char *[]){ argv[2], "--help", NULL });
+        if (strcmp(topic, "merge") == 0)
+            return tl_cmd_merge(2, (char *[]){ argv[2], "--help", NULL });
         fputs(strcmp(topic, "run") == 0        ? run_help
               : strcmp(topic, "scenario") == 0 ? scenario_help
               : strcmp(topic, "tables") == 0   ? tables_help
@@ -334,9 +340,13 @@ int main(int argc, char **argv)
         return tl_cmd_vectors(argc - 1, argv + 1);
     if (strcmp(cmd, "hil") == 0)
         return tl_cmd_hil(argc - 1, argv + 1);
+    if (strcmp(cmd, "sweep") == 0)
+        return tl_cmd_sweep(argc - 1, argv + 1);
+    if (strcmp(cmd, "merge") == 0)
+        return tl_cmd_merge(argc - 1, argv + 1);
     fprintf(stderr,
             "tidelock: unknown command '%s' (commands: run, scenario, simulate, replay, decode, budget, tables, "
-            "vectors, hil, help; "
+            "vectors, hil, sweep, merge, help; "
             "see tidelock --help)\n",
             cmd);
     return EXIT_USAGE;
