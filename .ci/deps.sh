@@ -10,7 +10,9 @@ pkgs=(gcc make pkg-config libfftw3-dev libcmocka-dev libjansson-dev libinih-dev 
       qemu-user
       # fuzzing and analysis gates (tests/fuzz/fuzz.mk): clang with libFuzzer and the sanitizer
       # runtimes (libclang-rt-14-dev is only a recommendation of clang), valgrind, cppcheck, gcovr
-      clang libclang-rt-14-dev valgrind cppcheck gcovr clang-tidy)
+      clang libclang-rt-14-dev valgrind cppcheck gcovr clang-tidy
+      # sweeps and sharded replays: tests/test_sweep.c runs 4 shards through GNU parallel (and fails without it)
+      parallel)
 missing=()
 for p in "${pkgs[@]}"; do
     dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed" || missing+=("$p")

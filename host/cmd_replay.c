@@ -13,18 +13,20 @@
 
 #include "commands.h"
 #include "fidelity.h"
+#include "replay_shard.h"
 #include "replay_threads.h"
 #include "report.h"
 #include "run.h"
 #include "run_outputs.h"
 #include "scenario.h"
+#include "shard_file.h"
 #include "sigmf.h"
 #include "spectra_out.h"
 #include "taps_design.h"
 
 
 static const char *const replay_help =
-    "usage: tidelock replay RECORDING.sigmf-meta [SCENARIO.ini] [-o DIR] [--block-kib N] [--threads N] [-q]\n"
+    "usage: tidelock replay RECORDING.sigmf-meta [SCENARIO.ini] [-o DIR] [--block-kib N] [--threads N | --shard I/N] [-q]\n"
     "\n"
     "Run a SigMF recording through the firmware chain and the FFTW double references, print the\n"
     "same report as `tidelock run` and write the same files into DIR. The scenario gives the\n"
@@ -45,6 +47,10 @@ static const char *const replay_help =
     "                      chain gives), no references, report or calibration. Refused with one line\n"
     "                      when a split cannot be exact (spectral kurtosis blocks, a detection shift\n"
     "                      below ceil(log2 spectra)). Memory: N x (chain + product + read block)\n"
+    "      --shard I/N     the firmware chain only, segment I of N of the integration (with the filterbank's\n"
+    "                      overlap): writes its integer sums to DIR/shard-IIII-of-NNNN.tlshard; `tidelock\n"
+    "                      merge` adds the N shards into the files --threads writes, byte for byte. Also\n"
+    "                      read from SLURM_ARRAY_TASK_ID and SLURM_ARRAY_TASK_COUNT. Same refusals as --threads\n"
     "  -q, --quiet         print nothing but errors; the exit status tells the verdict\n"
     "  -h, --help          this text\n"
     "exit status: 0 PASS, 1 FAIL or error (bad recording, scenario mismatch, I/O), 2 usage\n"
@@ -154,9 +160,10 @@ int tl_cmd_replay(int argc, char **argv)
                                           { "block-kib", required_argument, NULL, 'b' },
                                           { "quiet", no_argument, NULL, 'q' },
                                           { "threads", required_argument, NULL, 't' },
+                                          { "shard", required_argument, NULL, 's' },
                                           { "help", no_argument, NULL, 'h' },
                                           { NULL, 0, NULL, 0 } };
-    const char *dir = NULL, *block = NULL, *threads_arg = NULL;
+    const char *dir = NULL, *block = NULL, *threads_arg = NULL, *shard_arg = NULL;
     int quiet = 0, c;
     opterr = 0;
     while ((c = getopt_long(argc, argv, ":o:qh", opts, NULL)) != -1) {
@@ -164,6 +171,7 @@ int tl_cmd_replay(int argc, char **argv)
         case 'o': dir = optarg; break;
         case 'b': block = optarg; break;
         case 't': threads_arg = optarg; break;
+        case 's': shard_arg = optarg; break;
         case 'q': quiet = 1; break;
         case 'h': fputs(replay_help, stdout); return EXIT_OK;
         default: return tl_cli_bad_option("replay", argv, c);
@@ -188,6 +196,21 @@ int tl_cmd_replay(int argc, char **argv)
         if (end == threads_arg || *end != '\0' || threads_arg[0] == '-' || v < 1 || v > TL_REPLAY_MAX_THREADS)
             return tl_cli_usage("replay", "--threads: '%s' is not a whole number from 1 to 64", threads_arg);
         threads = (unsigned)v;
+    }
+    uint32_t shard_i = 0, shard_n = 0;
+    int sharded = 0;
+    {
+        char why[512];
+        if (shard_arg != NULL) {
+            if (tl_shard_parse(shard_arg, &shard_i, &shard_n, why, sizeof why) != 0)
+                return tl_cli_usage("replay", "%s", why);
+            sharded = 1;
+        } else if (threads_arg == NULL && tl_shard_from_env(&sharded, &shard_i, &shard_n, why, sizeof why) != 0) {
+            fprintf(stderr, "tidelock replay: %s\n", why);
+            return EXIT_USAGE;
+        }
+        if (sharded && threads_arg != NULL)
+            return tl_cli_usage("replay", "give --threads or --shard, not both%s", "");
     }
     /* NAME, NAME.sigmf-data and NAME.sigmf-meta all name the recording */
     char meta[4096];
@@ -266,6 +289,31 @@ int tl_cmd_replay(int argc, char **argv)
             printf("replay: note: the recording states no core:sample_rate; the scenario's %.6g MHz is assumed\n",
                    s.sky.sample_rate_hz / 1e6);
         fflush(stdout);
+    }
+    if (sharded) {
+        tl_product *p = malloc(sizeof *p);
+        uint8_t job[32];
+        char path[4300];
+        if (p == NULL) {
+            snprintf(err, sizeof err, "out of memory");
+            goto fail;
+        }
+        char why[4096];
+        if (tl_replay_shard_job(meta, in->datatype, in->samples, &s, job, why, sizeof why) != 0 ||
+            tl_run_outputs_folder(dir, why, sizeof why) != 0 ||
+            tl_replay_shard_run(meta, block_bytes, &s, job, shard_i, shard_n, dir, path, sizeof path, p, why,
+                                sizeof why) != 0) {
+            snprintf(err, sizeof err, "%s", why);
+            free(p);
+            goto fail;
+        }
+        if (!quiet)
+            printf("replay: shard %u of %u: spectra [%u, %u) of %u; wrote %s (merge all %u with tidelock merge)\n",
+                   shard_i, shard_n, (uint32_t)((uint64_t)s.spectra * shard_i / shard_n),
+                   (uint32_t)((uint64_t)s.spectra * (shard_i + 1u) / shard_n), s.spectra, path, shard_n);
+        free(p);
+        tl_sigmf_close(rd);
+        return EXIT_OK;
     }
     if (threads > 0u) {
         tl_product *p = malloc(sizeof *p);

@@ -39,4 +39,10 @@ int tl_cmd_hil(int argc, char **argv);
 /* tidelock upset [--trials N] [--target LIST] [--seed S] [--flips K] [--scrub-period P] ... */
 int tl_cmd_upset(int argc, char **argv);
 
+/* tidelock sweep [SCENARIO.ini] --vary SECTION.KEY=V,... [--vary ...] --out DIR [--shard I/N] [--common-noise] [-q] */
+int tl_cmd_sweep(int argc, char **argv);
+
+/* tidelock merge SHARD.tlshard... --out DIR [-q] */
+int tl_cmd_merge(int argc, char **argv);
+
 #endif

@@ -287,3 +287,73 @@ done:
     free(img);
     return rc;
 }
+
+/* ---- one segment at a time (replay --shard, replay_shard.h) -------------------- */
+
+int tl_replay_segment_product(const char *meta, size_t block_bytes, const tl_scenario *s, uint32_t k, uint32_t n,
+                              tl_product *out, char *err, size_t cap)
+{
+    const uint32_t M = s->spectra;
+    if (n < 1u || k >= n || n > M) {
+        snprintf(err, cap, "--shard %u/%u: the recording's integration of %u spectra splits into at most %u shards",
+                 k, n, M, M);
+        return -1;
+    }
+    if (s->cfg.sk_spectra != 0u && n > 1u) {
+        snprintf(err, cap, "--shard %u/%u: spectral kurtosis blocks ([flagging] sk_block = %u) cannot be split "
+                 "exactly across segments; use one shard",
+                 k, n, s->cfg.sk_spectra);
+        return -1;
+    }
+    tl_config whole = s->cfg;
+    whole.integration = M;
+    const uint32_t det = tl_config_det_shift(&whole);
+    whole.det_shift = TL_DET_SHIFT_AUTO;
+    const uint32_t safe = tl_config_det_shift(&whole);
+    if (n > 1u && det < safe) {
+        snprintf(err, cap, "--shard %u/%u: detection shift %u is below ceil(log2 %u spectra) = %u, so a sum could "
+                 "saturate, and saturation is not exact across segments; use one shard",
+                 k, n, det, M, safe);
+        return -1;
+    }
+    uint8_t *img = NULL;
+    size_t img_len = 0;
+    if (tl_scenario_taps_image(s, 0, &img, &img_len) != 0) {
+        snprintf(err, cap, "the coefficient table cannot be designed");
+        return -1;
+    }
+    segment g;
+    memset(&g, 0, sizeof g);
+    g.meta = meta;
+    g.block_bytes = block_bytes;
+    g.s = s;
+    g.img = img;
+    g.img_len = img_len;
+    g.det_shift = det;
+    g.first = (uint32_t)((uint64_t)M * k / n);
+    g.count = (uint32_t)((uint64_t)M * (k + 1u) / n) - g.first;
+    g.chain = malloc(sizeof *g.chain);
+    g.p = out;
+    int rc = -1;
+    if (g.chain == NULL) {
+        snprintf(err, cap, "out of memory");
+    } else {
+        run_segment(&g);
+        if (g.failed)
+            snprintf(err, cap, "%s", g.err);
+        else if (k > 0u && own_stats(&out->stats, &g.overlap, s->cfg.inputs) != 0)
+            snprintf(err, cap, "--shard %u/%u: a counter saturated in the segment, which is not exact across "
+                     "segments; use one shard",
+                     k, n);
+        else
+            rc = 0;
+    }
+    free(g.chain);
+    free(img);
+    return rc;
+}
+
+int tl_replay_add_product(tl_product *out, const tl_product *p)
+{
+    return merge(out, p);
+}

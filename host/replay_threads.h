@@ -50,4 +50,18 @@ size_t tl_replay_threads_bytes(unsigned threads, size_t block_bytes);
 int tl_replay_threads_product(const char *meta, size_t block_bytes, const tl_scenario *s, unsigned threads,
                               tl_product *out, char *err, size_t cap);
 
+/* Segment k of n (1 <= n <= M) on its own, as --threads would run it:
+ * spectra [M k / n, M (k + 1) / n), the same refusals, one line in err.
+ * For k > 0 the counters of the P - 1 overlap frames are already taken out,
+ * so adding the segments 1 .. n - 1 to segment 0 in order with
+ * tl_replay_add_product gives exactly the serial product (the one
+ * tl_replay_threads_product gives). Returns 0 or -1. */
+int tl_replay_segment_product(const char *meta, size_t block_bytes, const tl_scenario *s, uint32_t k, uint32_t n,
+                              tl_product *out, char *err, size_t cap);
+
+/* out += p: sums, counters, spectra counts and flags, as the threads merge.
+ * Returns 0, or -1 when a sum overflowed (cannot happen after the checks
+ * above; kept as a guard). */
+int tl_replay_add_product(tl_product *out, const tl_product *p);
+
 #endif

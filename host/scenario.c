@@ -1114,6 +1114,33 @@ int tl_scenario_load(const char *path, tl_scenario *s, char *err, size_t cap)
     return check_relations(s, path, c.key_line, err, cap);
 }
 
+/* ---- one key from outside a file (sweeps) ------------------------------------ */
+
+int tl_scenario_set(tl_scenario *s, const char *section, const char *key, const char *value, char *err, size_t cap)
+{
+    if (!known_section(section)) {
+        char list[200];
+        section_list(list, sizeof list);
+        snprintf(err, cap, "[%s] %s: unknown section [%s] (sections: %s)", section, key, section, list);
+        return -1;
+    }
+    size_t i = 0;
+    const key_def *k = key_by_name(section, key, &i);
+    if (k == NULL) {
+        char list[600];
+        key_list(section, list, sizeof list);
+        snprintf(err, cap, "[%s] %s: unknown key (keys of [%s]: %s)", section, key, section, list);
+        return -1;
+    }
+    char why[300];
+    if (set_value(s, k, value, why, sizeof why) != 0) {
+        snprintf(err, cap, "[%s] %s = '%s': %s", section, key, value, why);
+        return -1;
+    }
+    sync_derived(s);
+    return 0;
+}
+
 /* ---- writing ---------------------------------------------------------------- */
 
 int tl_scenario_write(FILE *out, const tl_scenario *s)

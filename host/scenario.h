@@ -97,6 +97,14 @@ int tl_scenario_load(const char *path, tl_scenario *s, char *err, size_t cap);
  * with one line in err. tl_scenario_load calls it. */
 int tl_scenario_check(const tl_scenario *s, const char *path, char *err, size_t cap);
 
+/* Set one key from its text, as a file line "key = value" in [section]
+ * would (same parsing and range check), then the fields it determines.
+ * Relations between keys are not checked: call tl_scenario_check after the
+ * last key. Returns 0, or -1 with one line in err: "[section] key =
+ * 'value': must be ..." or, for an unknown section or key, the list of
+ * allowed ones. */
+int tl_scenario_set(tl_scenario *s, const char *section, const char *key, const char *value, char *err, size_t cap);
+
 /* Write s as a scenario file, every key with its unit, range and default
  * in a comment. Returns 0, or -1 on a write error. */
 int tl_scenario_write(FILE *out, const tl_scenario *s);

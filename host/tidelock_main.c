@@ -43,6 +43,8 @@ static const char *const main_help =
     "  vectors   make or check the golden vectors (input and expected frame stream)\n"
     "  hil       run golden vectors on a target over the link protocol and compare\n"
     "  upset     flip bits in the live chain: what the scrubber catches, what reaches the downlink\n"
+    "  sweep     run a grid of configurations into one table (CSV, JSON); shardable\n"
+    "  merge     combine sweep or replay shards into the outputs one machine writes\n"
     "  help      help on a command (tidelock help run)\n"
     "\n"
     "exit status: 0 success, 1 failure (bad scenario file, I/O error, fidelity FAIL), 2 usage\n"
@@ -321,6 +323,10 @@ int main(int argc, char **argv)
             return tl_cmd_hil(2, (char *[]){ argv[2], "--help", NULL });
         if (strcmp(topic, "upset") == 0)
             return tl_cmd_upset(2, (char *[]){ argv[2], "--help", NULL });
+        if (strcmp(topic, "sweep") == 0)
+            return tl_cmd_sweep(2, (char *[]){ argv[2], "--help", NULL });
+        if (strcmp(topic, "merge") == 0)
+            return tl_cmd_merge(2, (char *[]){ argv[2], "--help", NULL });
         fputs(strcmp(topic, "run") == 0        ? run_help
               : strcmp(topic, "scenario") == 0 ? scenario_help
               : strcmp(topic, "tables") == 0   ? tables_help
@@ -348,9 +354,13 @@ int main(int argc, char **argv)
         return tl_cmd_hil(argc - 1, argv + 1);
     if (strcmp(cmd, "upset") == 0)
         return tl_cmd_upset(argc - 1, argv + 1);
+    if (strcmp(cmd, "sweep") == 0)
+        return tl_cmd_sweep(argc - 1, argv + 1);
+    if (strcmp(cmd, "merge") == 0)
+        return tl_cmd_merge(argc - 1, argv + 1);
     fprintf(stderr,
             "tidelock: unknown command '%s' (commands: run, scenario, simulate, replay, decode, budget, tables, "
-            "vectors, hil, upset, help; "
+            "vectors, hil, upset, sweep, merge, help; "
             "see tidelock --help)\n",
             cmd);
     return EXIT_USAGE;
