@@ -357,7 +357,8 @@ static void housekeeping_scrub_block(void **state)
     assert_int_equal(c.sci_flags & TL_DL_F_UPSET, TL_DL_F_UPSET);
     const uint32_t s = f.p->fft_stages + 1u;
     assert_int_equal(c.hk_len, TL_DL_HK_OCTETS(s));
-    assert_int_equal(TL_DL_HK_OCTETS(s) - TL_DL_HK_V1_OCTETS(s), 36u);
+    /* docs/icd.md 6.4: the acquisition block (32 octets), then the scrub block (36) */
+    assert_int_equal(TL_DL_HK_OCTETS(s) - TL_DL_HK_V1_OCTETS(s), 32u + 36u);
     assert_int_equal(c.hk[0], 2u);
     tl_dl_hk h;
     assert_int_equal(tl_downlink_parse_hk(c.hk, c.hk_len, &h), TL_OK);
@@ -370,7 +371,7 @@ static void housekeeping_scrub_block(void **state)
     assert_true(h.scrub.passes >= 1u);
     assert_int_equal(h.upset, 1u);
     /* the block's octets where the ICD puts them */
-    const size_t o = TL_DL_HK_V1_OCTETS(s);
+    const size_t o = TL_DL_HK_V1_OCTETS(s) + TL_DL_HK_ACQ_OCTETS;
     assert_int_equal(tl_get_be32(c.hk + o + 4u), 1u);  /* mismatches: coefficient table */
     assert_int_equal(tl_get_be32(c.hk + o + 12u), 1u); /* mismatches: configuration */
     assert_int_equal(tl_get_be32(c.hk + o + 16u), 1u); /* restores: coefficient table */
