@@ -161,3 +161,11 @@ tl_status tl_acq_run(const tl_scenario *s, tl_product *p, tl_acq_report *r)
     free(img);
     return st;
 }
+
+double tl_acq_scenario_duty(const tl_scenario *s)
+{
+    tl_acq_model m;
+    if (tl_acq_model_init(&m, s) != 0)
+        return -1.0;
+    return tl_acq_predicted_duty(&m);
+}

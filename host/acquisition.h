@@ -64,6 +64,12 @@ uint64_t tl_acq_predicted_kept(const tl_acq_model *m, uint64_t n);
  * as n grows): 1, 1 / rho (K >= 2) or 1 / ceil(rho) (K = 1). */
 double tl_acq_predicted_duty(const tl_acq_model *m);
 
+/* The steady-state duty cycle of s's processor (closed form, as
+ * tl_acq_predicted_duty), whether or not s drives the chain through the
+ * model: the fraction of the ADC's samples the firmware processes. Returns
+ * it in (0, 1], or -1 when s's [processor] values are out of range. */
+double tl_acq_scenario_duty(const tl_scenario *s);
+
 /* The event simulation, one block at a time. */
 typedef struct tl_acq_sim {
     const tl_acq_model *m;

@@ -1,5 +1,6 @@
 /* html_report.c - the self-contained HTML page (see html_report.h). */
 #include "html_report.h"
+#include "acquisition.h"
 
 #include <math.h>
 #include <stdarg.h>
@@ -257,7 +258,14 @@ int tl_html_report_run(const char *dir, const tl_scenario *s, const tl_run_resul
         snprintf(err, cap, "%s/report.html: out of memory", dir);
         goto out;
     }
-    if (tl_sensitivity_compute(s, s->sens_hours, s->sens_duty, sens, err, cap) != 0)
+    /* the observing duty cycle of [sensitivity] times the fraction of the
+     * samples the processor keeps up with ([processor], docs/acquisition.md) */
+    const double proc_duty = tl_acq_scenario_duty(s);
+    if (proc_duty <= 0.0) {
+        snprintf(err, cap, "scenario %s: [processor] values out of range for the acquisition model", s->name);
+        goto out;
+    }
+    if (tl_sensitivity_compute(s, s->sens_hours, s->sens_duty * proc_duty, sens, err, cap) != 0)
         goto out;
     if (r->cal.done)
         (void)tl_sensitivity_fidelity(s, r, sens, fid); /* fid->done stays 0 when it cannot */
@@ -271,7 +279,7 @@ int tl_html_report_run(const char *dir, const tl_scenario *s, const tl_run_resul
     const int detected = sens->significance >= TL_SENS_DETECT_SIGMA;
     if (s->sky.trough_depth_k > 0.0) {
         row(rows, &n, "Does the scenario detect its feature?",
-            "%s: %.3g sigma after %g h of co-added observing (duty cycle %.2f), against %.0f sigma needed "
+            "%s: %.3g sigma after %g h of co-added observing (duty cycle %.3g), against %.0f sigma needed "
             "(%.3g K feature at %.3g MHz, %.3g MHz wide, fitted jointly with a log-polynomial foreground of order %u)",
             detected ? "YES" : "NO", sens->significance, sens->hours, sens->duty, TL_SENS_DETECT_SIGMA,
             s->sky.trough_depth_k, s->sky.trough_centre_hz / 1e6, s->sky.trough_width_hz / 1e6, s->fit_order);
@@ -327,11 +335,11 @@ int tl_html_report_run(const char *dir, const tl_scenario *s, const tl_run_resul
     if (out != NULL) {
         if (s->sky.trough_depth_k > 0.0)
             fprintf(out,
-                    "sensitivity (%g h, duty %.2f): feature %.3g sigma (%s); 5 sigma after %.3g h = %.3g lunar nights\n",
+                    "sensitivity (%g h, duty %.3g): feature %.3g sigma (%s); 5 sigma after %.3g h = %.3g lunar nights\n",
                     sens->hours, sens->duty, sens->significance, detected ? "detected" : "not detected",
                     sens->hours_detect, sens->nights_detect);
         else
-            fprintf(out, "sensitivity (%g h, duty %.2f): %.3g K per channel at %.2f MHz; the scenario has no feature\n",
+            fprintf(out, "sensitivity (%g h, duty %.3g): %.3g K per channel at %.2f MHz; the scenario has no feature\n",
                     sens->hours, sens->duty, sens->sigma_k[kmid], kmid * sens->channel_hz / 1e6);
         if (fid->done)
             fprintf(out, "firmware in the calibrated spectrum: %.2g of the noise (rms), at most %.2g at %g h\n",

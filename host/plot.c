@@ -503,7 +503,7 @@ static void draw_bars(cairo_t *cr, const void *what)
             ax.hi = fmax(ax.hi, v);
     }
     if (b->mode == TL_BARS_FRACTION)
-        ax.hi = fmax(ax.hi, 100.0);
+        ax.hi = fmin(fmax(ax.hi, 100.0), TL_BARS_FRACTION_MAX); /* beyond: the bar runs off the axis, the text tells */
     if (!(ax.hi > 0.0))
         ax.hi = 1.0;
     ax.hi *= 1.08;

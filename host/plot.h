@@ -57,6 +57,11 @@ typedef struct tl_plot_bar {
 
 enum { TL_BARS_ABSOLUTE = 0,   /* bar length = used, the allocation a tick mark */
        TL_BARS_FRACTION = 1 }; /* bar length = used / allocation in %, a line at 100 % */
+/* In TL_BARS_FRACTION mode the axis ends at this percentage at most; a
+ * longer bar is cut there (hatched, as every bar over its allocation) and
+ * its figure is in the text beside it, so one runaway budget does not
+ * flatten the others. */
+#define TL_BARS_FRACTION_MAX 300.0
 
 /* Draw a line chart into BASE.png and BASE.svg. Returns 0, or -1 with one
  * line in err (cap bytes) naming the file. */

@@ -134,6 +134,15 @@ void tl_report_print(FILE *out, const char *command, const tl_scenario *s, const
         fprintf(out, "  %u antenna spectra integrated (%.4f s effective of %.4f s), %u discarded at gaps%s\n",
                 aq->antenna_spectra, aq->effective_s, aq->span_s, aq->gap_discarded,
                 aq->dropped ? "; the packets carry this product" : "");
+    } else {
+        tl_acq_model m;
+        if (tl_acq_model_init(&m, s) == 0)
+            fprintf(out,
+                    "processor (%.0f MHz clock, CPI %.2f, %.2f instructions/sample): load %.4g, predicted duty cycle %.4g "
+                    "of the samples (closed form; [processor] model = false, so this run integrated every sample)\n",
+                    s->proc_clock_hz / 1e6, s->proc_cpi,
+                    s->proc_ips[0] + s->proc_ips[1] + s->proc_ips[2] + s->proc_ips[3] + s->proc_ips[4] + s->proc_ips[5],
+                    tl_acq_load(&m), tl_acq_predicted_duty(&m));
     }
     if (r->dl.done) {
         const tl_dl_result *d = &r->dl;

@@ -36,6 +36,8 @@ void tl_figures_budget_bars(const tl_scenario *s, const tl_budget *b, tl_budget_
                                     s->bud_pass_h * 24.0 / s->bud_contact_h, "h" };
     o->bar[o->n++] = (tl_plot_bar){ "storage between passes", b->storage_needed / 1e6, s->bud_storage_bytes / 1e6,
                                     "MB" };
+    o->bar[o->n++] = (tl_plot_bar){ "processor clock needed", b->cycles_per_s / 1e9, s->proc_clock_hz / 1e9,
+                                    "GHz" };
     double worst = -1.0;
     for (unsigned i = 0; i < o->n; i++) {
         const double u = o->bar[i].used / o->bar[i].allocation;

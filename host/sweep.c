@@ -12,6 +12,7 @@
 #include "atomic_file.h"
 #include "budget.h"
 #include "run.h"
+#include "sensitivity.h"
 #include "sha256.h"
 #include "version.h"
 
@@ -24,6 +25,7 @@ typedef struct point_ctx {
     const tl_scenario *s;
     const tl_run_result *r;
     const tl_budget *b;
+    double sigma; /* detection significance (sensitivity.h), nan without a feature */
 } point_ctx;
 
 static const tl_sweep_column columns[] = {
@@ -50,6 +52,14 @@ static const tl_sweep_column columns[] = {
     { "storage_mb", "MB", "storage needed between relay passes (budget)", 'g' },
     { "allocation_margin", "fraction", "(allocation - need) / allocation per Earth day (budget)", 'g' },
     { "budget_closed", "flag", "1 when every budget margin is >= 0", 'u' },
+    { "clock_mhz", "MHz", "processor clock ([processor])", 'g' },
+    { "instructions_per_sample", "instructions", "per sample instant, all stages and inputs ([processor])", 'g' },
+    { "processing_load", "ratio", "cycles per second needed over the clock (budget)", 'g' },
+    { "duty_cycle", "fraction", "samples the processor keeps up with, closed form of the acquisition model", 'g' },
+    { "duty_cycle_run", "fraction", "blocks processed in the run's model pass (nan when [processor] model = false)",
+      'g' },
+    { "detection_sigma", "sigma", "the feature's detection significance after [sensitivity] hours (nan without one)",
+      'g' },
 };
 #define NCOLUMNS (sizeof columns / sizeof columns[0])
 _Static_assert(NCOLUMNS <= TL_SWEEP_MAX_COLUMNS, "raise TL_SWEEP_MAX_COLUMNS");
@@ -119,6 +129,12 @@ static void fill_row(const point_ctx *c, double *v)
     v[n++] = c->b->storage_needed / 1e6;
     v[n++] = c->b->margin_allocation;
     v[n++] = c->b->closed;
+    v[n++] = c->s->proc_clock_hz / 1e6;
+    v[n++] = c->b->ips_total;
+    v[n++] = c->b->load;
+    v[n++] = tl_acq_scenario_duty(c->s);
+    v[n++] = c->r->acq.done ? c->r->acq.experienced_duty : NAN;
+    v[n++] = c->sigma;
     if (n != NCOLUMNS)
         abort(); /* a column without its line here: a programming error */
 }
@@ -349,10 +365,25 @@ int tl_sweep_run_point(const tl_sweep_plan *p, uint32_t index, tl_sweep_row *row
         snprintf(err, cap, "sweep point %u: %s", index, why);
         goto out;
     }
+    double sigma = NAN;
+    if (s->sky.trough_depth_k > 0.0) {
+        tl_sensitivity *sens = malloc(sizeof *sens);
+        const double duty = tl_acq_scenario_duty(s);
+        if (duty <= 0.0)
+            snprintf(why, sizeof why, "[processor] values out of range for the acquisition model");
+        if (sens == NULL || duty <= 0.0 ||
+            tl_sensitivity_compute(s, s->sens_hours, s->sens_duty * duty, sens, why, sizeof why) != 0) {
+            snprintf(err, cap, "sweep point %u: %s", index, sens == NULL ? "out of memory" : why);
+            free(sens);
+            goto out;
+        }
+        sigma = sens->significance;
+        free(sens);
+    }
     memset(row, 0, sizeof *row);
     row->index = index;
     row->seed = (uint32_t)s->sky.seed;
-    const point_ctx c = { s, r, b };
+    const point_ctx c = { s, r, b, sigma };
     fill_row(&c, row->v);
     rc = 0;
 out:

@@ -131,10 +131,17 @@ static void test_processing_budget(void **state)
     tl_budget b;
     memset(&b, 0, sizeof b);
     tl_budget_processing(&s, &b);
-    const double I = 248.112 + 901.176 + 82.018 + 31.010 + 0.332 + 1.846; /* the [processor] defaults */
+    const double I = 131.762 + 522.925 + 68.015 + 31.008 + 0.332 + 1.846; /* the [processor] defaults */
     TL_ASSERT_NEAR(b.ips_total, I, 1e-9);
     TL_ASSERT_NEAR(b.instr_per_s, I * 102.4e6, 1e-3);
     TL_ASSERT_NEAR(b.cycles_per_s, I * 102.4e6, 1e-3);
+    /* the default processor, one core at 600 MHz, CPI 1, does not keep up */
+    TL_ASSERT_NEAR(b.load, I * 102.4e6 / 600e6, 1e-9);
+    TL_ASSERT_NEAR(b.headroom, 1.0 - I * 102.4e6 / 600e6, 1e-9);
+    TL_ASSERT_NEAR(b.realtime_fraction, 600e6 / (I * 102.4e6), 1e-15);
+    /* a processor that keeps up: the whole stream, headroom left */
+    s.proc_clock_hz = 200e9;
+    tl_budget_processing(&s, &b);
     TL_ASSERT_NEAR(b.load, I * 102.4e6 / 200e9, 1e-12);
     TL_ASSERT_NEAR(b.headroom, 1.0 - I * 102.4e6 / 200e9, 1e-12);
     TL_ASSERT_NEAR(b.realtime_fraction, 1.0, 0.0);
@@ -156,7 +163,8 @@ static void test_cli(void **state)
     snprintf(ini, sizeof ini, "%s/b.ini", dir);
     FILE *f = fopen(ini, "w");
     fputs("[instrument]\nchannels = 512\n[integration]\nspectra = 1024\n[fidelity]\nblocks = 16\n"
-          "extrapolate_to = 1048576\n[budget]\nallocation_mb_per_day = 1000\nlink_rate_kbps = 1000\nstorage_mb = 1000\n",
+          "extrapolate_to = 1048576\n[budget]\nallocation_mb_per_day = 1000\nlink_rate_kbps = 1000\nstorage_mb = 1000\n"
+          "[processor]\nclock_mhz = 200000\n",
           f);
     fclose(f);
     snprintf(args, sizeof args, "budget %s -o %s/o", ini, dir);
@@ -171,7 +179,7 @@ static void test_cli(void **state)
     json_t *pr = json_object_get(j, "processing");
     assert_non_null(pr);
     TL_ASSERT_NEAR(json_real_value(json_object_get(pr, "headroom")),
-                   1.0 - 1264.494 * 102.4e6 / 200e9, 1e-9); /* the default processor */
+                   1.0 - 755.888 * 102.4e6 / 200e9, 1e-9); /* the default stage costs at 200 GHz */
     json_decref(j);
     /* a processor too slow for the sample rate opens the budget */
     f = fopen(ini, "w");
@@ -182,7 +190,7 @@ static void test_cli(void **state)
     fclose(f);
     snprintf(args, sizeof args, "budget %s", ini);
     assert_int_equal(tl_test_tool(argv0, args, out, sizeof out), 1);
-    assert_non_null(strstr(out, "sustainable real-time fraction 0.0046"));
+    assert_non_null(strstr(out, "sustainable real-time fraction 0.0078"));
     assert_non_null(strstr(out, "budget: OPEN"));
     /* an allocation of 1 kB per day cannot close: exit 1, OPEN, a negative margin */
     f = fopen(ini, "w");

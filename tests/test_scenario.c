@@ -297,7 +297,7 @@ static void modified(tl_scenario *s)
     s->bud_storage_bytes = 64e6;
     s->bud_night_fraction = 0.75;
     s->bud_day_fraction = 0.25;
-    s->proc_model = 0;
+    s->proc_model = 1;
     s->proc_clock_hz = 480e6;
     s->proc_cpi = 1.25;
     s->proc_block = 16384u;

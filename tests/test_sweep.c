@@ -511,8 +511,10 @@ static void test_refusals(void **state)
     /* keys that do not exist (yet): the key and the allowed keys */
     expect_refusal("", "sweep tiny.ini --vary instrument.clock_mhz=100,200 --out bad1", 1,
                    "clock_mhz: unknown key (keys of [instrument]: sample_rate_mhz");
-    expect_refusal("", "sweep tiny.ini --vary processor.clock_mhz=100 --out bad1", 1,
-                   "unknown section [processor] (sections: scenario, instrument");
+    expect_refusal("", "sweep tiny.ini --vary coolant.flow=100 --out bad1", 1,
+                   "unknown section [coolant] (sections: scenario, instrument");
+    /* a processor key is an axis; out of range it is refused like any other */
+    expect_refusal("", "sweep tiny.ini --vary processor.clock_mhz=0.5 --out bad1", 1, "clock_mhz");
     expect_refusal("", "sweep tiny.ini --vary channels=1 --out bad1", 1, "must be section.key=value");
     expect_refusal("", "sweep tiny.ini --vary instrument.taps=4,,8 --out bad1", 1, "value 2 is empty");
     expect_refusal("", "sweep tiny.ini --vary instrument.taps=4 --vary instrument.taps=8 --out bad1", 1,
