@@ -57,7 +57,10 @@ double tl_acq_predicted_duty(const tl_acq_model *m)
     if (m->S <= m->T)
         return 1.0;
     if (m->buffers == 1u)
-        return 1.0 / (double)((m->S + m->T - 1u) / m->T);
+    {
+        const unsigned __int128 every = (m->S + m->T - 1u) / m->T; /* m = ceil(rho), an integer */
+        return 1.0 / (double)every;
+    }
     return (double)m->T / (double)m->S;
 }
 

@@ -419,18 +419,19 @@ static int callgrind_workload(uint32_t channels)
     ps.cfg.det_shift = tl_config_det_shift(&cs.cfg);
     tl_chain *pc = open_chain(&ps);
     tl_product *prod = xmalloc(sizeof *prod);
-    if (tl_chain_push(pc, x, NULL, n, &used) != TL_OK || !tl_chain_ready(pc) || tl_chain_take(pc, prod) != TL_OK)
-        return 1;
     tl_encode *enc = xmalloc(sizeof *enc);
     const size_t cap = TL_ENCODE_LOSSLESS_BOUND(TL_ENCODE_MAX_CHANNELS);
     uint8_t *out = xmalloc(cap);
     tl_downlink *dl = xmalloc(sizeof *dl);
     tl_downlink_config dc;
     tl_downlink_config_default(&dc);
-    if (tl_downlink_init(dl, &dc) != TL_OK)
-        return 1;
-    bench_stage_encode(prod, enc, out, cap);
-    bench_stage_downlink(prod, dl);
+    int rc = 1;
+    if (tl_chain_push(pc, x, NULL, n, &used) == TL_OK && tl_chain_ready(pc) && tl_chain_take(pc, prod) == TL_OK &&
+        tl_downlink_init(dl, &dc) == TL_OK) {
+        bench_stage_encode(prod, enc, out, cap);
+        bench_stage_downlink(prod, dl);
+        rc = 0;
+    }
     free(dl);
     free(out);
     free(enc);
@@ -440,7 +441,7 @@ static int callgrind_workload(uint32_t channels)
     close_stages(&d);
     free(x);
     free_setup(&cs);
-    return 0;
+    return rc;
 }
 
 static const char *const cg_names[] = { "bench_stage_pfb",       "bench_stage_fft",   "bench_stage_detect",

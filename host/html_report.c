@@ -15,15 +15,15 @@
 
 size_t tl_base64(const unsigned char *src, size_t n, char *dst)
 {
-    static const char tab[] = "ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/";
+    static const char tab[] = "ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/=";
     size_t o = 0;
     for (size_t i = 0; i < n; i += 3) {
         const unsigned v = (unsigned)src[i] << 16 | (i + 1 < n ? (unsigned)src[i + 1] << 8 : 0u) |
                            (i + 2 < n ? (unsigned)src[i + 2] : 0u);
         dst[o++] = tab[(v >> 18) & 63u];
         dst[o++] = tab[(v >> 12) & 63u];
-        dst[o++] = i + 1 < n ? tab[(v >> 6) & 63u] : '=';
-        dst[o++] = i + 2 < n ? tab[v & 63u] : '=';
+        dst[o++] = tab[i + 1 < n ? (v >> 6) & 63u : 64u]; /* tab[64] is the pad '=' */
+        dst[o++] = tab[i + 2 < n ? v & 63u : 64u];
     }
     dst[o] = '\0';
     return o;
@@ -315,8 +315,8 @@ int tl_html_report_run(const char *dir, const tl_scenario *s, const tl_run_resul
     row(rows, &n, "Overflow and saturation events", "%llu in %u spectra (ADC clips, filterbank, FFT, accumulators)",
         (unsigned long long)ev, r->fid.spectra);
     if (r->cal.done)
-        row(rows, &n, "Calibration against the model", "chi-squared per channel %.3f (input 0)%s over %u channels",
-            r->cal.chi2_red[0], r->fid.product.inputs > 1u ? "" : "", r->cal.channels);
+        row(rows, &n, "Calibration against the model", "chi-squared per channel %.3f (input 0) over %u channels",
+            r->cal.chi2_red[0], r->cal.channels);
     const uint32_t kmid = (sens->lo + sens->hi) / 2u;
     row(rows, &n, "Radiometer noise (prediction)",
         "%.3g K per %.3g kHz channel at %.2f MHz after %g h; switch cycle kept: antenna %.3f, load %.3f, noise %.3f, "

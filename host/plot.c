@@ -178,8 +178,13 @@ static unsigned ticks(const axis *a, double *t)
     }
     const double span = a->hi - a->lo, raw = span / 6.0, mag = pow(10.0, floor(log10(raw)));
     const double step = raw / mag < 1.5 ? mag : raw / mag < 3.5 ? 2 * mag : raw / mag < 7.5 ? 5 * mag : 10 * mag;
-    for (double v = ceil(a->lo / step - 1e-9) * step; v <= a->hi + 1e-9 * span && n < MAX_TICKS; v += step)
+    const double first = ceil(a->lo / step - 1e-9) * step;
+    for (unsigned j = 0; n < MAX_TICKS; j++) {
+        const double v = first + j * step; /* an integer counter: no drift from repeated additions */
+        if (v > a->hi + 1e-9 * span)
+            break;
         t[n++] = fabs(v) < 1e-12 * span ? 0.0 : v;
+    }
     return n;
 }
 
@@ -527,7 +532,7 @@ static void draw_bars(cairo_t *cr, const void *what)
     const double row = (B - T) / (double)(b->n ? b->n : 1u), h = fmin(row * 0.6, 40.0);
     for (size_t i = 0; i < b->n; i++) {
         const tl_plot_bar *r = &b->bars[i];
-        const double yc = T + row * (i + 0.5);
+        const double yc = T + row * ((double)i + 0.5);
         const double v = b->mode == TL_BARS_FRACTION ? (r->allocation > 0 ? 100.0 * r->used / r->allocation : 0.0)
                                                      : r->used;
         const double x1 = to_px(&ax, fmin(fmax(v, 0.0), ax.hi));
@@ -542,7 +547,8 @@ static void draw_bars(cairo_t *cr, const void *what)
             cairo_clip(cr);
             cairo_set_source_rgb(cr, 1, 1, 1);
             cairo_set_line_width(cr, 2.0);
-            for (double x = L - h; x < x1; x += 8) {
+            for (unsigned j = 0; L - h + 8.0 * j < x1; j++) {
+                const double x = L - h + 8.0 * j;
                 cairo_move_to(cr, x, yc + h / 2);
                 cairo_line_to(cr, x + h, yc - h / 2);
             }

@@ -240,7 +240,7 @@ int tl_sensitivity_compute(const tl_scenario *s, double hours, double duty, tl_s
         o->perp_k[k] = res[i];
         o->snr[k] = res[i] / o->sigma_k[k];
     }
-    if (o->depth_k > 0.0 && invert(A, m, inv) == 0 && inv[m - 1u][m - 1u] > 0.0) {
+    if (o->depth_k > 0.0 && m >= 1u && invert(A, m, inv) == 0 && inv[m - 1u][m - 1u] > 0.0) {
         o->amp_sigma_k = sqrt(inv[m - 1u][m - 1u]);
         o->significance = o->depth_k / o->amp_sigma_k;
         o->hours_detect = hours * pow(TL_SENS_DETECT_SIGMA / o->significance, 2.0);

@@ -1102,8 +1102,9 @@ int tl_sigmf_skip(tl_sigmf_reader *r, uint64_t n, char *err, size_t cap)
         r->failed = 1;
         return -1;
     }
-    if (n * fb > (uint64_t)INT64_MAX || fseeko(r->f, (off_t)(n * fb), SEEK_CUR) != 0) {
-        say(err, cap, "%s: cannot seek %llu bytes forward: %s", r->info.data_path, (unsigned long long)(n * fb),
+    const uint64_t bytes = n * fb;
+    if (bytes > (uint64_t)INT64_MAX || fseeko(r->f, (off_t)bytes, SEEK_CUR) != 0) {
+        say(err, cap, "%s: cannot seek %llu bytes forward: %s", r->info.data_path, (unsigned long long)bytes,
             strerror(errno));
         r->failed = 1;
         return -1;

@@ -1,5 +1,4 @@
 /* sweep.c - a grid of configurations into one table (sweep.h). */
-#define _GNU_SOURCE /* open_memstream */
 #include "sweep.h"
 
 #include <math.h>
@@ -254,7 +253,7 @@ static void axis_values(const tl_sweep_plan *p, uint32_t index, uint32_t *vi)
 
 int tl_sweep_point(const tl_sweep_plan *p, uint32_t index, tl_scenario *s, char *err, size_t cap)
 {
-    uint32_t vi[TL_SWEEP_MAX_AXES];
+    uint32_t vi[TL_SWEEP_MAX_AXES] = { 0 };
     axis_values(p, index, vi);
     *s = p->base;
     char why[1024], where[320];
@@ -645,8 +644,8 @@ int tl_sweep_merge(const char *const *paths, const tl_shard *sh, size_t nfiles, 
     tl_sweep_row *rows = NULL;
     uint8_t *have = NULL;
     int rc = -1;
-    if (p == NULL || q == NULL) {
-        snprintf(err, cap, "out of memory");
+    if (p == NULL || q == NULL || nfiles == 0u) {
+        snprintf(err, cap, nfiles == 0u ? "no shard to merge" : "out of memory");
         goto out;
     }
     for (size_t f = 0; f < nfiles; f++) {

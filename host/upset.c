@@ -443,6 +443,11 @@ int tl_upset_run(const tl_upset_opts *o, tl_upset_tally tally[TL_UPSET_TARGETS],
         release(&h);
         return -1;
     }
+    if (h.events == 0u) {
+        snprintf(err, cap, "upset: the clean run offered no point to inject at");
+        release(&h);
+        return -1;
+    }
     tl_rng r;
     tl_rng_seed(&r, o->seed);
     flip_at fl[MAX_FLIPS];
@@ -453,6 +458,8 @@ int tl_upset_run(const tl_upset_opts *o, tl_upset_tally tally[TL_UPSET_TARGETS],
         target_spans(h.c, t, &v);
         tl_upset_tally *y = &tally[t];
         y->region_bits = v.bits;
+        if (v.bits == 0u)
+            continue; /* an empty region: nothing to flip */
         for (uint32_t k = 0; k < o->trials; k++) {
             for (uint32_t f = 0; f < o->flips; f++) {
                 fl[f].event = (uint32_t)(tl_rng_u64(&r) % h.events);
