@@ -17,6 +17,13 @@ HOST_LIBS := -lfftw3 -ljansson -linih -llz4 -lcairo -lfontconfig -lm
 TEST_LIBS := -lcmocka
 
 FW_SRC := $(sort $(wildcard firmware/*.c))
+# AVX2 twins of the hot loops (firmware/x86/tl_simd_x86.h): host library on
+# x86-64 only; TL_SIMD_X86 lets the rel and san firmware call them (chosen at
+# run time). Never in the purity check, the cross targets or the flight code.
+ifeq ($(shell uname -m),x86_64)
+FW_SIMD_SRC := firmware/x86/tl_simd_avx2.c
+FW_SIMD_DEF := -DTL_SIMD_X86
+endif
 HOST_LIB_SRC := $(filter-out host/tidelock_main.c host/tablegen_main.c host/bench_main.c,$(sort $(wildcard host/*.c)))
 TEST_SRC := $(sort $(wildcard tests/test_*.c))
 TEST_SUPPORT_SRC := $(filter-out $(TEST_SRC) tests/degraded_%.c,$(sort $(wildcard tests/*.c)))
@@ -29,10 +36,10 @@ objs = $(patsubst %.c,$(BUILD)/$(1)/%.o,$(2))
 # rel: normal build; san: AddressSanitizer + UndefinedBehaviorSanitizer;
 # deg: firmware with a 16-bit FFT data word (must fail the fidelity tests).
 SAN_FLAGS := -fsanitize=address,undefined -fno-sanitize-recover=all -fno-omit-frame-pointer
-rel_FW := $(FW_CFLAGS)
+rel_FW := $(FW_CFLAGS) $(FW_SIMD_DEF)
 rel_HOST := $(HOST_CFLAGS)
 rel_LD :=
-san_FW := $(FW_CFLAGS) $(SAN_FLAGS) -O1
+san_FW := $(FW_CFLAGS) $(FW_SIMD_DEF) $(SAN_FLAGS) -O1
 san_HOST := $(HOST_CFLAGS) $(SAN_FLAGS) -O1
 san_LD := $(SAN_FLAGS)
 deg_FW := $(FW_CFLAGS) -DTL_FFT_DATA_BITS=16
@@ -40,7 +47,8 @@ deg_HOST := $(HOST_CFLAGS) -DTL_FFT_DATA_BITS=16
 deg_LD :=
 
 define variant
-$(BUILD)/$(1)/firmware/%.o: firmware/%.c $(wildcard firmware/*.h) | $(BUILD)/$(1)/firmware
+$(BUILD)/$(1)/firmware/%.o: firmware/%.c $(wildcard firmware/*.h firmware/x86/*.h) | $(BUILD)/$(1)/firmware
+	@mkdir -p $$(@D)
 	$$(CC) $$($(1)_FW) $$(INCLUDES) -c $$< -o $$@
 $(BUILD)/$(1)/host/%.o: host/%.c $(wildcard firmware/*.h host/*.h) | $(BUILD)/$(1)/host
 	$$(CC) $$($(1)_HOST) $$(INCLUDES) -c $$< -o $$@
@@ -48,7 +56,7 @@ $(BUILD)/$(1)/tests/%.o: tests/%.c $(wildcard firmware/*.h host/*.h tests/*.h) |
 	$$(CC) $$($(1)_HOST) $$(INCLUDES) -Itests -c $$< -o $$@
 $(BUILD)/$(1)/firmware $(BUILD)/$(1)/host $(BUILD)/$(1)/tests:
 	mkdir -p $$@
-$(BUILD)/$(1)/libtl.a: $(call objs,$(1),$(FW_SRC) $(HOST_LIB_SRC))
+$(BUILD)/$(1)/libtl.a: $(call objs,$(1),$(FW_SRC) $(FW_SIMD_SRC) $(HOST_LIB_SRC))
 	rm -f $$@ && ar rcs $$@ $$^
 $(BUILD)/$(1)/tidelock: $(BUILD)/$(1)/host/tidelock_main.o $(BUILD)/$(1)/libtl.a
 	$$(CC) $$($(1)_LD) $$^ $(HOST_LIBS) -o $$@
@@ -91,7 +99,7 @@ PREFIX ?= /usr/local
 DESTDIR ?=
 VERSION := $(shell sed -n 's/^\#define TL_TOOL_VERSION "\(.*\)"/\1/p' host/version.h)
 FW_LIB := $(BUILD)/rel/libtidelock-firmware.a
-$(FW_LIB): $(call objs,rel,$(FW_SRC))
+$(FW_LIB): $(call objs,rel,$(FW_SRC) $(FW_SIMD_SRC))
 	rm -f $@ && ar rcs $@ $^
 
 install: all $(FW_LIB) ## install the CLI, firmware library, headers, pkg-config file, man page (PREFIX=, DESTDIR=)

@@ -1,5 +1,8 @@
 /* tl_chain.c - the spectrometer chain (see tl_chain.h). */
 #include "tl_chain.h"
+#if defined(TL_SIMD_X86)
+#include "x86/tl_simd_x86.h" /* host build on x86-64 only (Makefile) */
+#endif
 #include <stddef.h>
 #include <string.h>
 
@@ -333,15 +336,22 @@ static void copy_in(tl_chain *c, uint32_t input, const int16_t *src, uint32_t n)
     uint32_t clips = 0;
     uint32_t hist[TL_ADC_HIST_BINS] = { 0 };
     uint64_t sumsq = 0; /* n <= 16384 codes of |code| <= 2^15: < 2^45 */
-    for (uint32_t i = 0; i < n; i++) {
-        const int16_t v = src[i];
-        clips += (uint32_t)(v >= hi) + (uint32_t)(v == INT16_MIN);
-        hist[(uint32_t)((int32_t)v + 32768) >> 12]++;
-        /* code = v / 2^drop truncated towards zero (exact for left-aligned
-         * codes); only its square is kept: |code| = |v| >> drop */
-        const uint32_t mag = (uint32_t)(v < 0 ? -(int32_t)v : (int32_t)v) >> drop;
-        sumsq += (uint64_t)mag * mag;
-        dst[i] = v;
+#if defined(TL_SIMD_X86)
+    if (drop <= 15u && tl_simd_x86_active()) { /* AVX2 twin, same counts (host build) */
+        tl_adc_copy_avx2(src, dst, n, hi, drop, &clips, hist, &sumsq);
+    } else
+#endif
+    {
+        for (uint32_t i = 0; i < n; i++) {
+            const int16_t v = src[i];
+            clips += (uint32_t)(v >= hi) + (uint32_t)(v == INT16_MIN);
+            hist[(uint32_t)((int32_t)v + 32768) >> 12]++;
+            /* code = v / 2^drop truncated towards zero (exact for left-aligned
+             * codes); only its square is kept: |code| = |v| >> drop */
+            const uint32_t mag = (uint32_t)(v < 0 ? -(int32_t)v : (int32_t)v) >> drop;
+            sumsq += (uint64_t)mag * mag;
+            dst[i] = v;
+        }
     }
     tl_count_add(&c->stats.adc_clips[input], clips);
     for (uint32_t b = 0; b < TL_ADC_HIST_BINS; b++)

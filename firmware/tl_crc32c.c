@@ -1,5 +1,8 @@
 /* tl_crc32c.c - CRC-32C, four bits per step (see tl_crc32c.h for the parameters). */
 #include "tl_crc32c.h"
+#if defined(TL_SIMD_X86)
+#include "x86/tl_simd_x86.h" /* host build on x86-64 only (Makefile) */
+#endif
 
 /* nibble[i] = four bitwise steps of the reflected polynomial 0x82F63B78
  * applied to i: crc = (crc >> 1) ^ (crc & 1 ? 0x82F63B78 : 0), four times.
@@ -17,6 +20,10 @@ static uint32_t crc32c_byte(uint32_t crc, uint8_t b)
 
 uint32_t tl_crc32c_update(uint32_t crc, const uint8_t *data, size_t len)
 {
+#if defined(TL_SIMD_X86)
+    if (tl_simd_x86_active()) /* SSE4.2 twin, same value */
+        return tl_crc32c_update_sse42(crc, data, len);
+#endif
     for (size_t i = 0; i < len; i++)
         crc = crc32c_byte(crc, data[i]);
     return crc;

@@ -1,5 +1,8 @@
 /* tl_detect.c - power and cross-power (see tl_detect.h). */
 #include "tl_detect.h"
+#if defined(TL_SIMD_X86)
+#include "x86/tl_simd_x86.h" /* host build on x86-64 only (Makefile) */
+#endif
 
 /* The rounding of tl_round_shr_u64 as one bias, without branches:
  *     round(p / 2^s) = (p + bias) >> s,
@@ -16,6 +19,12 @@ void tl_detect_power(const int32_t *X, uint32_t channels, unsigned shift, tl_rou
                          : mode == TL_ROUND_HALF_UP   ? half
                                                       : 0u;
     const uint64_t odd_mask = (shift != 0u && mode == TL_ROUND_HALF_EVEN) ? 1u : 0u;
+#if defined(TL_SIMD_X86)
+    if (tl_simd_x86_active()) { /* AVX2 twin, same integers */
+        tl_detect_power_avx2(X, channels, shift, add, odd_mask, P);
+        return;
+    }
+#endif
     for (uint32_t k = 0; k < channels; k++) {
         const int64_t xr = X[2u * k], xi = X[2u * k + 1u];
         const uint64_t p = (uint64_t)(xr * xr) + (uint64_t)(xi * xi);

@@ -1,5 +1,8 @@
 /* tl_pfb.c - polyphase filterbank (see tl_pfb.h for the arithmetic). */
 #include "tl_pfb.h"
+#if defined(TL_SIMD_X86)
+#include "x86/tl_simd_x86.h" /* host build on x86-64 only (Makefile) */
+#endif
 
 tl_status tl_pfb_init(tl_pfb *pfb, const tl_taps *table, tl_rounding rounding)
 {
@@ -91,12 +94,20 @@ int tl_pfb_commit(tl_pfb *pfb, int32_t *y, uint32_t *sat)
     }
     uint32_t ovf = 0;
     const unsigned sh = pfb->out_shift;
-    if (P == 4u && sh == 1u && pfb->rounding == TL_ROUND_HALF_EVEN)
-        filter(frame, coef, N, 4u, tl_round_bias_make(1u, TL_ROUND_HALF_EVEN), y, &ovf); /* the default table */
-    else if (sh != 0u)
-        filter(frame, coef, N, P, tl_round_bias_make(sh, pfb->rounding), y, &ovf);
-    else
-        filter_unshifted(frame, coef, N, P, y, &ovf);
+#if defined(TL_SIMD_X86)
+    if (sh >= 1u && sh <= 32u && tl_simd_x86_active()) { /* AVX2 twin, same integers */
+        const tl_round_bias rb = tl_round_bias_make(sh, pfb->rounding);
+        tl_pfb_filter_avx2(frame, coef, N, P, &rb, y, &ovf);
+    } else
+#endif
+    {
+        if (P == 4u && sh == 1u && pfb->rounding == TL_ROUND_HALF_EVEN)
+            filter(frame, coef, N, 4u, tl_round_bias_make(1u, TL_ROUND_HALF_EVEN), y, &ovf); /* the default table */
+        else if (sh != 0u)
+            filter(frame, coef, N, P, tl_round_bias_make(sh, pfb->rounding), y, &ovf);
+        else
+            filter_unshifted(frame, coef, N, P, y, &ovf);
+    }
     tl_count_add(sat, ovf);
     return 1;
 }

@@ -50,13 +50,13 @@ $(HIL_B)/host/io_posix.o: hil/io_posix.c hil/runner_io.h
 	@mkdir -p $(@D)
 	$(CC) $(HOST_CFLAGS) -Ihil -c $< -o $@
 $(HIL_B)/host/vector-runner: $(patsubst hil/%.c,$(HIL_B)/host/%.o,$(HIL_COMMON)) $(HIL_B)/host/io_posix.o \
-                             $(call objs,rel,$(FW_SRC))
+                             $(call objs,rel,$(FW_SRC) $(FW_SIMD_SRC))
 	$(CC) $^ -o $@
 $(HIL_B)/host/link_posix.o: hil/link_posix.c $(HIL_HEADERS)
 	@mkdir -p $(@D)
 	$(CC) $(HOST_CFLAGS) -Ifirmware -Ihil -c $< -o $@
 $(HIL_B)/host/link-target: $(HIL_B)/host/hil_run.o $(HIL_B)/host/link_target.o $(HIL_B)/host/link_posix.o \
-                           $(call objs,rel,$(FW_SRC))
+                           $(call objs,rel,$(FW_SRC) $(FW_SIMD_SRC))
 	$(CC) $^ -o $@
 
 # ---- Cortex-M7 ----

@@ -31,8 +31,14 @@
  * against a reference measured in the same run are meant to be compared
  * between machines.
  *
+ * Paths: on x86-64 with AVX2, the chain, stage and callgrind figures are
+ * given twice, for the portable firmware ("portable", the AVX2 twins turned
+ * off with tl_simd_x86_enable(0)) and with the AVX2 twins of
+ * firmware/x86/ ("avx2"); both give the same bytes (tests/test_simd_x86.c).
+ * The replay runs the CLI, which uses the AVX2 twins when the CPU has them.
+ *
  * usage: tl-bench [--json PATH] [--replay-gib X] [--tidelock PATH] [--tmp DIR]
- *        tl-bench --callgrind-workload CHANNELS   (what callgrind runs)
+ *        tl-bench [--portable] --callgrind-workload CHANNELS   (what callgrind runs)
  */
 #include <errno.h>
 #include <fcntl.h>
@@ -58,6 +64,12 @@
 #include "run.h"
 #include "spectral_decode.h"
 #include "tl_encode.h"
+#if defined(__x86_64__) && defined(__GNUC__)
+#include "x86/tl_simd_x86.h"
+#define BENCH_SIMD 1
+#else
+#define BENCH_SIMD 0
+#endif
 #include "scenario.h"
 #include "sky_noise.h"
 #include "taps_design.h"
@@ -388,8 +400,24 @@ static double sqnr_db(const int32_t *y, const int32_t *X, uint32_t points, uint3
  * CG_FRAMES frames through each stage loop and through the whole chain. */
 #define CG_FRAMES 16u
 
-static int callgrind_workload(uint32_t channels)
+/* 1: the AVX2 twins (when the CPU has them), 0: the portable firmware. */
+static void set_path(int simd)
 {
+#if BENCH_SIMD
+    tl_simd_x86_enable(simd);
+#else
+    (void)simd;
+#endif
+}
+
+static const char *path_name(int simd)
+{
+    return simd ? "avx2" : "portable";
+}
+
+static int callgrind_workload(uint32_t channels, int simd)
+{
+    set_path(simd);
     chain_setup cs;
     setup_chain(&cs, channels);
     const uint32_t warm = cs.taps - 1u;
@@ -450,14 +478,15 @@ static const char *const cg_names[] = { "bench_stage_pfb",       "bench_stage_ff
 #define CG_N 8
 
 /* Run the workload under callgrind once; Ir per function (inclusive) into ir[]. */
-static int callgrind_once(const char *self, const char *dir, uint32_t channels, int run, double ir[CG_N])
+static int callgrind_once(const char *self, const char *dir, uint32_t channels, int simd, int run,
+                          double ir[CG_N])
 {
     char out[4400], cmd[16384];
-    snprintf(out, sizeof out, "%s/cg.%u.%d.out", dir, channels, run);
+    snprintf(out, sizeof out, "%s/cg.%u.%s.%d.out", dir, channels, path_name(simd), run);
     snprintf(cmd, sizeof cmd,
-             "valgrind --tool=callgrind -q --callgrind-out-file='%s' '%s' --callgrind-workload %u >/dev/null 2>&1 "
+             "valgrind --tool=callgrind -q --callgrind-out-file='%s' '%s' %s--callgrind-workload %u >/dev/null 2>&1 "
              "&& callgrind_annotate --inclusive=yes --threshold=100 '%s' 2>/dev/null",
-             out, self, channels, out);
+             out, self, simd ? "" : "--portable ", channels, out);
 /* NOLINTNEXTLINE(cert-env33-c): the bench runs valgrind, cmp and the built tool on paths it made */
     FILE *p = popen(cmd, "r");
     if (p == NULL)
@@ -489,6 +518,7 @@ static int callgrind_once(const char *self, const char *dir, uint32_t channels, 
 
 typedef struct chain_row {
     uint32_t channels;
+    int simd;                     /* 1: AVX2 twins, 0: portable firmware */
     stat3 fix, ref, ratio;        /* Msample/s, Msample/s, fixed / reference */
     stat3 ns[4];                  /* ns/sample: pfb, fft, detect, integrate */
     stat3 r2ns, fft_speedup;      /* baseline FFT ns/sample; baseline time / our FFT time */
@@ -497,8 +527,9 @@ typedef struct chain_row {
     double ir[2][CG_N];           /* instructions per sample, two callgrind runs */
 } chain_row;
 
-static void bench_chain(chain_row *row, uint32_t channels)
+static void bench_chain(chain_row *row, uint32_t channels, int simd)
 {
+    set_path(simd);
     chain_setup cs;
     setup_chain(&cs, channels);
     const uint32_t points = cs.points, taps = cs.taps;
@@ -553,6 +584,7 @@ static void bench_chain(chain_row *row, uint32_t channels)
         sp[rep] = t2[rep] / ts[1][rep];
     }
     row->channels = channels;
+    row->simd = simd;
     row->fix = stat_of(tf, BENCH_REPS);
     row->ref = stat_of(tr, BENCH_REPS);
     row->ratio = stat_of(rt, BENCH_REPS);
@@ -585,7 +617,7 @@ static void bench_instructions(chain_row *rows, int nrows, const char *self, con
         rows[i].have_ir = 1;
         const double samples = (double)CG_FRAMES * 2.0 * rows[i].channels;
         for (int run = 0; run < 2; run++) {
-            if (callgrind_once(self, dir, rows[i].channels, run, rows[i].ir[run]) != 0) {
+            if (callgrind_once(self, dir, rows[i].channels, rows[i].simd, run, rows[i].ir[run]) != 0) {
                 fprintf(stderr, "tl-bench: callgrind run failed for %u channels (files in %s)\n", rows[i].channels, dir);
                 rows[i].have_ir = 0;
                 break;
@@ -605,19 +637,20 @@ static void print_chain(json_t *root, const chain_row *rows, int nrows)
 {
     static const char *const sname[4] = { "filterbank", "fft", "detection", "integration" };
     printf("\nchain: 1 input, 4 taps, Hann; every time the median of %d runs [min max] in this run\n", BENCH_REPS);
-    printf("%-9s %-26s %-26s %-22s\n", "channels", "fixed Msample/s", "FFTW double ref Msample/s",
+    printf("%-9s %-9s %-26s %-26s %-22s\n", "channels", "path", "fixed Msample/s", "FFTW double ref Msample/s",
            "fixed/ref");
     for (int i = 0; i < nrows; i++)
-        printf("%-9u %7.1f [%7.1f %7.1f]   %7.1f [%7.1f %7.1f]   %5.2f [%5.2f %5.2f]\n", rows[i].channels,
+        printf("%-9u %-9s %7.1f [%7.1f %7.1f]   %7.1f [%7.1f %7.1f]   %5.2f [%5.2f %5.2f]\n", rows[i].channels,
+               path_name(rows[i].simd),
                rows[i].fix.med, rows[i].fix.min, rows[i].fix.max, rows[i].ref.med, rows[i].ref.min, rows[i].ref.max,
                rows[i].ratio.med, rows[i].ratio.min, rows[i].ratio.max);
     printf("\nns/sample by stage (stage functions called directly on the same data, 2^22 samples per run)\n");
-    printf("%-9s", "channels");
+    printf("%-9s %-9s", "channels", "path");
     for (int s = 0; s < 4; s++)
         printf(" %-22s", sname[s]);
     printf(" %-10s %-10s\n", "sum", "chain");
     for (int i = 0; i < nrows; i++) {
-        printf("%-9u", rows[i].channels);
+        printf("%-9u %-9s", rows[i].channels, path_name(rows[i].simd));
         double sum = 0.0;
         for (int s = 0; s < 4; s++) {
             printf(" %5.2f [%5.2f %5.2f]    ", rows[i].ns[s].med, rows[i].ns[s].min, rows[i].ns[s].max);
@@ -626,7 +659,7 @@ static void print_chain(json_t *root, const chain_row *rows, int nrows)
         printf(" %-10.2f %-10.2f\n", sum, 1e3 / rows[i].fix.med);
     }
     printf("\nFFT stage against the radix-2 int32 baseline (host/bench_radix2.c), same y, same size\n");
-    printf("%-9s %-24s %-24s %-12s %-12s %-12s %-12s\n", "channels", "baseline ns/sample", "speed ours/baseline",
+    printf("%-9s %-9s %-24s %-24s %-12s %-12s %-12s %-12s\n", "channels", "path", "baseline ns/sample", "speed ours/baseline",
            "Ir ours", "Ir baseline", "Ir ratio", "SQNR ours/baseline dB");
     for (int i = 0; i < nrows; i++) {
         char irs[3][32];
@@ -638,18 +671,18 @@ static void print_chain(json_t *root, const chain_row *rows, int nrows)
             for (int k = 0; k < 3; k++)
                 snprintf(irs[k], sizeof irs[k], "not measured");
         }
-        printf("%-9u %5.2f [%5.2f %5.2f]     %5.2fx [%5.2f %5.2f]     %-12s %-12s %-12s %.1f / %.1f\n",
-               rows[i].channels, rows[i].r2ns.med, rows[i].r2ns.min, rows[i].r2ns.max, rows[i].fft_speedup.med,
+        printf("%-9u %-9s %5.2f [%5.2f %5.2f]     %5.2fx [%5.2f %5.2f]     %-12s %-12s %-12s %.1f / %.1f\n",
+               rows[i].channels, path_name(rows[i].simd), rows[i].r2ns.med, rows[i].r2ns.min, rows[i].r2ns.max, rows[i].fft_speedup.med,
                rows[i].fft_speedup.min, rows[i].fft_speedup.max, irs[0], irs[1], irs[2], rows[i].sqnr_fft,
                rows[i].sqnr_r2);
     }
     printf("\ninstructions per input sample (callgrind Ir, %u frames, inclusive; run 1 | run 2)\n", CG_FRAMES);
-    printf("%-9s", "channels");
+    printf("%-9s %-9s", "channels", "path");
     for (int s = 0; s < 4; s++)
         printf(" %-19s", sname[s]);
     printf(" %-19s %-19s %s\n", "radix-2 baseline", "whole chain", "repeat");
     for (int i = 0; i < nrows; i++) {
-        printf("%-9u", rows[i].channels);
+        printf("%-9u %-9s", rows[i].channels, path_name(rows[i].simd));
         if (!rows[i].have_ir) {
             printf(" not measured\n");
             continue;
@@ -663,7 +696,7 @@ static void print_chain(json_t *root, const chain_row *rows, int nrows)
         printf(" %s\n", same ? "identical" : "DIFFERENT");
         /* encoding and packets: per sample of the product of the CG_FRAMES frames
          * (a longer integration spreads them over more samples) */
-        printf("%-9s encoding %8.3f | %8.3f, packets (downlink - encoding) %8.3f | %8.3f per sample of a %u-frame "
+        printf("%-19s encoding %8.3f | %8.3f, packets (downlink - encoding) %8.3f | %8.3f per sample of a %u-frame "
                "product\n",
                "", rows[i].ir[0][6], rows[i].ir[1][6], rows[i].ir[0][7] - rows[i].ir[0][6],
                rows[i].ir[1][7] - rows[i].ir[1][6], CG_FRAMES);
@@ -672,6 +705,7 @@ static void print_chain(json_t *root, const chain_row *rows, int nrows)
     for (int i = 0; i < nrows; i++) {
         json_t *o = json_object();
         json_object_set_new(o, "channels", json_integer(rows[i].channels));
+        json_object_set_new(o, "path", json_string(path_name(rows[i].simd)));
         json_object_set_new(o, "taps", json_integer(4));
         json_object_set_new(o, "inputs", json_integer(1));
         json_object_set_new(o, "fixed_msamples_per_s", json_stat(rows[i].fix));
@@ -922,6 +956,7 @@ int main(int argc, char **argv)
 {
     const char *json_path = NULL, *tool = "build/rel/tidelock", *tmp = "/tmp";
     double gib = 2.0;
+    int simd_cg = 1;
     for (int i = 1; i < argc; i++) {
         if (strcmp(argv[i], "--json") == 0 && i + 1 < argc)
             json_path = argv[++i];
@@ -931,8 +966,10 @@ int main(int argc, char **argv)
             tool = argv[++i];
         else if (strcmp(argv[i], "--tmp") == 0 && i + 1 < argc)
             tmp = argv[++i];
+        else if (strcmp(argv[i], "--portable") == 0)
+            simd_cg = 0;
         else if (strcmp(argv[i], "--callgrind-workload") == 0 && i + 1 < argc)
-            return callgrind_workload((uint32_t)strtoul(argv[++i], NULL, 10));
+            return callgrind_workload((uint32_t)strtoul(argv[++i], NULL, 10), simd_cg);
         else {
             fprintf(stderr, "tl-bench: unknown option '%s' (options: --json PATH, --replay-gib X from 0 to 64, "
                             "--tidelock PATH, --tmp DIR)\n", argv[i]);
@@ -953,10 +990,21 @@ int main(int argc, char **argv)
     bench_synthesis(root);
     const uint32_t ch[] = { 1024u, 4096u, 8192u };
     enum { NCH = sizeof ch / sizeof ch[0] };
-    chain_row rows[NCH];
+    /* the portable firmware, and the AVX2 twins when this CPU has them */
+    int npath = 1;
+#if BENCH_SIMD
+    tl_simd_x86_enable(1);
+    npath = tl_simd_x86_active() ? 2 : 1;
+    printf("paths       portable%s\n", npath == 2 ? " and avx2 (firmware/x86/, same bytes)"
+                                                   : " only (this CPU has no AVX2)");
+#endif
+    chain_row rows[2 * NCH];
     memset(rows, 0, sizeof rows);
+    int nrows = 0;
     for (int i = 0; i < NCH; i++)
-        bench_chain(&rows[i], ch[i]);
+        for (int p = 0; p < npath; p++)
+            bench_chain(&rows[nrows++], ch[i], p);
+    set_path(1);
     /* the issue's 16384 channels need a 32768-point transform */
     if (2u * 16384u > TL_MAX_POINTS) {
         printf("chain       16384 channels: NOT measured (this build's TL_MAX_POINTS is %u points = %u channels; "
@@ -967,11 +1015,11 @@ int main(int argc, char **argv)
     const ssize_t sl = readlink("/proc/self/exe", self, sizeof self - 1u);
     if (sl > 0) {
         self[sl] = '\0';
-        bench_instructions(rows, NCH, self, tmp);
+        bench_instructions(rows, nrows, self, tmp);
     } else {
         printf("callgrind   /proc/self/exe unreadable: instructions per sample NOT measured\n");
     }
-    print_chain(root, rows, NCH);
+    print_chain(root, rows, nrows);
     printf("\n");
     bench_encoder(root);
     int rc = 0;

@@ -22,6 +22,9 @@
 #include "taps_design.h"
 #include "tl_fft.h"
 #include "version.h"
+#if defined(__x86_64__) && defined(__GNUC__)
+#include "x86/tl_simd_x86.h"
+#endif
 
 
 
@@ -296,6 +299,13 @@ static int cmd_tables(int argc, char **argv)
 
 int main(int argc, char **argv)
 {
+#if defined(__x86_64__) && defined(__GNUC__)
+    /* TIDELOCK_SIMD=off: the portable firmware instead of the AVX2 twins
+     * (same bytes; for comparisons and benchmarks) */
+    const char *simd = getenv("TIDELOCK_SIMD");
+    if (simd != NULL && strcmp(simd, "off") == 0)
+        tl_simd_x86_enable(0);
+#endif
     if (argc < 2) {
         fputs(main_help, stderr);
         return EXIT_USAGE;
