@@ -106,7 +106,7 @@ cov_LD := --coverage
 $(eval $(call variant,cov))
 COV_TESTS ?= $(filter test_chain test_crc16 test_crc32c test_cuc test_detect test_downlink test_encode test_fft \
                       test_fixed test_frame test_integrate test_link test_lz4 test_packet test_pfb test_sk test_switch \
-                      test_taps test_twiddle test_window test_decode test_vectors test_status test_acquisition test_command,$(TESTS))
+                      test_taps test_twiddle test_window test_decode test_vectors test_status test_acquisition test_command test_scrub test_upset,$(TESTS))
 COV_PREREQS = $(addprefix $(BUILD)/cov/,$(COV_TESTS)) $(BUILD)/cov/tidelock $(HIL_RUNNERS)
 coverage: $(COV_PREREQS) ## firmware line/branch coverage with gcovr (95 %/85 %)
 	@find $(BUILD)/cov -name '*.gcda' -delete
