@@ -247,6 +247,29 @@ static int usable(unsigned scale, double v)
     return isfinite(v) && (scale != TL_PLOT_LOG || v > 0.0);
 }
 
+/* Vertical grid lines at the x ticks between T and B, tick marks and their
+ * labels below B. */
+static void x_grid(cairo_t *cr, const axis *ax, double T, double B)
+{
+    double t[MAX_TICKS];
+    char s[64];
+    cairo_set_line_width(cr, 1.0);
+    const unsigned n = ticks(ax, t);
+    for (unsigned i = 0; i < n; i++) {
+        const double px = to_px(ax, t[i]);
+        cairo_set_source_rgb(cr, 0.88, 0.88, 0.88);
+        cairo_move_to(cr, px, T);
+        cairo_line_to(cr, px, B);
+        cairo_stroke(cr);
+        cairo_set_source_rgb(cr, 0, 0, 0);
+        cairo_move_to(cr, px, B);
+        cairo_line_to(cr, px, B + 5);
+        cairo_stroke(cr);
+        fmt_tick(s, sizeof s, t[i]);
+        text_at(cr, px, B + 8, s, 12, 0.5, 0.0, 0);
+    }
+}
+
 static void frame_and_labels(cairo_t *cr, const char *title, const char *note, const char *xlabel,
                              const char *ylabel, double L, double T, double R, double B)
 {
@@ -313,22 +336,8 @@ static void draw_lines(cairo_t *cr, const void *what)
     /* grid and ticks */
     double t[MAX_TICKS];
     char s[64];
-    cairo_set_line_width(cr, 1.0);
-    unsigned n = ticks(&ax, t);
-    for (unsigned i = 0; i < n; i++) {
-        const double px = to_px(&ax, t[i]);
-        cairo_set_source_rgb(cr, 0.88, 0.88, 0.88);
-        cairo_move_to(cr, px, T);
-        cairo_line_to(cr, px, B);
-        cairo_stroke(cr);
-        cairo_set_source_rgb(cr, 0, 0, 0);
-        cairo_move_to(cr, px, B);
-        cairo_line_to(cr, px, B + 5);
-        cairo_stroke(cr);
-        fmt_tick(s, sizeof s, t[i]);
-        text_at(cr, px, B + 8, s, 12, 0.5, 0.0, 0);
-    }
-    n = ticks(&ay, t);
+    x_grid(cr, &ax, T, B);
+    unsigned n = ticks(&ay, t);
     for (unsigned i = 0; i < n; i++) {
         const double py = to_px(&ay, t[i]);
         cairo_set_source_rgb(cr, 0.88, 0.88, 0.88);
@@ -512,23 +521,8 @@ static void draw_bars(cairo_t *cr, const void *what)
     if (!(ax.hi > 0.0))
         ax.hi = 1.0;
     ax.hi *= 1.08;
-    double t[MAX_TICKS];
     char s[160], s2[64];
-    const unsigned nt = ticks(&ax, t);
-    cairo_set_line_width(cr, 1.0);
-    for (unsigned i = 0; i < nt; i++) {
-        const double px = to_px(&ax, t[i]);
-        cairo_set_source_rgb(cr, 0.88, 0.88, 0.88);
-        cairo_move_to(cr, px, T);
-        cairo_line_to(cr, px, B);
-        cairo_stroke(cr);
-        cairo_set_source_rgb(cr, 0, 0, 0);
-        cairo_move_to(cr, px, B);
-        cairo_line_to(cr, px, B + 5);
-        cairo_stroke(cr);
-        fmt_tick(s, sizeof s, t[i]);
-        text_at(cr, px, B + 8, s, 12, 0.5, 0.0, 0);
-    }
+    x_grid(cr, &ax, T, B);
     const double row = (B - T) / (double)(b->n ? b->n : 1u), h = fmin(row * 0.6, 40.0);
     for (size_t i = 0; i < b->n; i++) {
         const tl_plot_bar *r = &b->bars[i];
