@@ -191,6 +191,38 @@ static int merge(tl_product *out, const tl_product *p)
     return bad ? -1 : 0;
 }
 
+/* A recording's integration splits into segments with exactly the serial
+ * result only when no spectral kurtosis block spans them and no sum can
+ * saturate (saturation is not exact across segments). Returns 1 with one
+ * line in err when it cannot be split; `what` names the option. */
+/* The detection shift of the whole integration (every segment uses it). */
+static uint32_t whole_det_shift(const tl_scenario *s)
+{
+    tl_config whole = s->cfg;
+    whole.integration = s->spectra;
+    return tl_config_det_shift(&whole);
+}
+
+static int split_refused(const tl_scenario *s, const char *what, const char *remedy, char *err, size_t cap)
+{
+    if (s->cfg.sk_spectra != 0u) {
+        snprintf(err, cap, "%s: spectral kurtosis blocks ([flagging] sk_block = %u) cannot be split "
+                 "exactly across segments; %s", what, s->cfg.sk_spectra, remedy);
+        return 1;
+    }
+    const uint32_t det = whole_det_shift(s);
+    tl_config whole = s->cfg;
+    whole.integration = s->spectra;
+    whole.det_shift = TL_DET_SHIFT_AUTO;
+    const uint32_t safe = tl_config_det_shift(&whole);
+    if (det < safe) {
+        snprintf(err, cap, "%s: detection shift %u is below ceil(log2 %u spectra) = %u, so a sum could "
+                 "saturate, and saturation is not exact across segments; %s", what, det, s->spectra, safe, remedy);
+        return 1;
+    }
+    return 0;
+}
+
 int tl_replay_threads_product(const char *meta, size_t block_bytes, const tl_scenario *s, unsigned threads,
                               tl_product *out, char *err, size_t cap)
 {
@@ -199,21 +231,11 @@ int tl_replay_threads_product(const char *meta, size_t block_bytes, const tl_sce
         snprintf(err, cap, "--threads %u: must be from 1 to %u", threads, TL_REPLAY_MAX_THREADS);
         return -1;
     }
-    if (s->cfg.sk_spectra != 0u && threads > 1u) {
-        snprintf(err, cap, "--threads %u: spectral kurtosis blocks ([flagging] sk_block = %u) cannot be split "
-                 "exactly across segments; use --threads 1", threads, s->cfg.sk_spectra);
+    char what[48];
+    snprintf(what, sizeof what, "--threads %u", threads);
+    if (threads > 1u && split_refused(s, what, "use --threads 1", err, cap))
         return -1;
-    }
-    tl_config whole = s->cfg;
-    whole.integration = M;
-    const uint32_t det = tl_config_det_shift(&whole);
-    whole.det_shift = TL_DET_SHIFT_AUTO;
-    const uint32_t safe = tl_config_det_shift(&whole);
-    if (threads > 1u && det < safe) {
-        snprintf(err, cap, "--threads %u: detection shift %u is below ceil(log2 %u spectra) = %u, so a sum could "
-                 "saturate, and saturation is not exact across segments; use --threads 1", threads, det, M, safe);
-        return -1;
-    }
+    const uint32_t det = whole_det_shift(s);
     if (M < 1u) {
         snprintf(err, cap, "no spectra to integrate");
         return -1;
@@ -299,23 +321,11 @@ int tl_replay_segment_product(const char *meta, size_t block_bytes, const tl_sce
                  k, n, M, M);
         return -1;
     }
-    if (s->cfg.sk_spectra != 0u && n > 1u) {
-        snprintf(err, cap, "--shard %u/%u: spectral kurtosis blocks ([flagging] sk_block = %u) cannot be split "
-                 "exactly across segments; use one shard",
-                 k, n, s->cfg.sk_spectra);
+    char what[48];
+    snprintf(what, sizeof what, "--shard %u/%u", k, n);
+    if (n > 1u && split_refused(s, what, "use one shard", err, cap))
         return -1;
-    }
-    tl_config whole = s->cfg;
-    whole.integration = M;
-    const uint32_t det = tl_config_det_shift(&whole);
-    whole.det_shift = TL_DET_SHIFT_AUTO;
-    const uint32_t safe = tl_config_det_shift(&whole);
-    if (n > 1u && det < safe) {
-        snprintf(err, cap, "--shard %u/%u: detection shift %u is below ceil(log2 %u spectra) = %u, so a sum could "
-                 "saturate, and saturation is not exact across segments; use one shard",
-                 k, n, det, M, safe);
-        return -1;
-    }
+    const uint32_t det = whole_det_shift(s);
     uint8_t *img = NULL;
     size_t img_len = 0;
     if (tl_scenario_taps_image(s, 0, &img, &img_len) != 0) {
