@@ -10,7 +10,7 @@
 
 #define TL_MIN_POINTS 256u       /* smallest real transform (128 channels) */
 #ifndef TL_MAX_POINTS
-#define TL_MAX_POINTS 16384u     /* largest real transform (8192 channels) */
+#define TL_MAX_POINTS 32768u     /* largest real transform (16384 channels) */
 #endif
 #ifndef TL_MAX_TAPS
 #define TL_MAX_TAPS 16u          /* largest polyphase taps per channel */
@@ -23,13 +23,13 @@
 
 /* The twiddle table covers one full turn of TL_TWIDDLE_TURN steps; every
  * supported real transform size divides it. Fixed by the arithmetic spec. */
-#define TL_TWIDDLE_TURN 16384u
+#define TL_TWIDDLE_TURN 32768u
 #define TL_TWIDDLE_QUARTER (TL_TWIDDLE_TURN / 4u)
 
 #define TL_MAX_CHANNELS (TL_MAX_POINTS / 2u)
 
 #if (TL_MAX_POINTS & (TL_MAX_POINTS - 1u)) != 0 || TL_MAX_POINTS < TL_MIN_POINTS || TL_MAX_POINTS > TL_TWIDDLE_TURN
-#error "TL_MAX_POINTS must be a power of two from 256 to 16384"
+#error "TL_MAX_POINTS must be a power of two from 256 to 32768"
 #endif
 #if TL_MAX_TAPS < 1 || TL_MAX_TAPS > 16
 #error "TL_MAX_TAPS must be from 1 to 16"

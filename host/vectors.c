@@ -200,7 +200,7 @@ static const vec_def defs[] = {
     { "channels-m7-max", "the most channels and taps of the Cortex-M7 build (2048 channels, 4 taps), largest "
                          "packets and frames",
       112, 1, 0, d_channels_m7_max },
-    { "channels-host-max", "the most channels of the host build (8192), beyond the Cortex-M7's maxima", 113, 1, 0,
+    { "channels-host-max", "the most channels of the host build (16384), beyond the Cortex-M7's maxima", 113, 1, 0,
       d_channels_host_max },
     { "taps-host-max", "the most taps of the host build (16, Blackman-Harris), beyond the Cortex-M7's maxima", 114,
       1, 0, d_taps_host_max },

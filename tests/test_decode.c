@@ -1485,8 +1485,8 @@ static void hostile_input(void **state)
     len = make_packet(0x101, u, TL_DL_HEADER_OCTETS + 12u + lz, pk);
     put_both(fb, &ro, pk, len);
     expect_payload++;
-    /* (c) a spectrum of 16384 channels (format allows 32768, the host 8192) */
-    science_header(u, 16384, 0, 256, 1);
+    /* (c) a spectrum of 32768 channels (format allows 32768, the host 16384) */
+    science_header(u, 32768, 0, 256, 1);
     len = make_packet(0x101, u, TL_DL_HEADER_OCTETS + 20u, pk);
     put_both(fb, &ro, pk, len);
     expect_channels++;

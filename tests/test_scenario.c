@@ -367,11 +367,11 @@ static const bound bounds[] = {
     { "instrument", "adc_full_scale_v", "0.001", "", "100", "", "0.000999", "100.001",
       "a number from 0.001 to 100 V" },
     { "instrument", "inputs", "1", "", "2", "", "0", "3", "an integer from 1 to 2" },
-    { "instrument", "channels", "128", "", "8192", "", "64", "16384", "a power of two from 128 to 8192" },
+    { "instrument", "channels", "128", "", "16384", "", "64", "32768", "a power of two from 128 to 16384" },
     { "instrument", "taps", "1", "", "16", "", "0", "17", "an integer from 1 to 16" },
     { "instrument", "window", "rectangular", "", "blackman-harris4", "", "Hann", "hanning",
       "one of rectangular, hann, hamming, blackman, blackman-harris4" },
-    { "instrument", "fft_scaling", "0x0", "", "0x3FFF", "channels = 8192\n", "-1", "65536",
+    { "instrument", "fft_scaling", "0x0", "", "0x7FFF", "channels = 16384\n", "-1", "65536",
       "auto, or a mask from 0 to 2^(log2(channels)+1) - 1 (decimal or 0x hex)" },
     { "instrument", "rounding", "truncate", "", "half-even", "", "nearest", "HALF-EVEN",
       "one of truncate, half-up, half-even" },
@@ -516,9 +516,9 @@ static void test_documented_ends_no_file_reaches(void **state)
     /* band_high 1000 needs a 2000 MHz rate; the rate stops at 1000 */
     expect_error("[fidelity]\nband_high_mhz = 1000\n[instrument]\nsample_rate_mhz = 1000\n",
                  ":2: [fidelity] band_high_mhz = '1000': must be at most half the sample rate, 500 MHz");
-    /* fft_scaling 65535 needs 32768 channels; channels stop at 8192 */
-    expect_error("[instrument]\nfft_scaling = 65535\nchannels = 8192\n",
-                 ":2: [instrument] fft_scaling = '0xFFFF': must be auto or at most 0x3FFF for 8192 channels (one bit "
+    /* fft_scaling 65535 needs 32768 channels; channels stop at 16384 */
+    expect_error("[instrument]\nfft_scaling = 65535\nchannels = 16384\n",
+                 ":2: [instrument] fft_scaling = '0xFFFF': must be auto or at most 0x7FFF for 16384 channels (one bit "
                  "per binary stage plus the split)");
     /* the longest folder (180 characters) still fits a line: it loads and
      * its written form reads back */
@@ -587,7 +587,7 @@ static void test_choices_booleans_auto(void **state)
     expect_loads("[instrument]\nchannels = 1024\n", &s);
     assert_int_equal(s.cfg.points, 2048u);
     expect_error("[instrument]\nchannels = 3000\n",
-                 ":2: [instrument] channels = '3000': must be a power of two from 128 to 8192");
+                 ":2: [instrument] channels = '3000': must be a power of two from 128 to 16384");
 }
 
 /* Text keys: the name's character set, free description text, folder. */
@@ -660,7 +660,7 @@ static const case_ cases[] = {
     { "non-numeric: inf", "[sky]\nreceiver_k = inf\n",
       ":2: [sky] receiver_k = 'inf': must be a number from 0 to 1e+06 K" },
     { "'#' is no inline comment", "[instrument]\nchannels = 2048 # note\n",
-      ":2: [instrument] channels = '2048 # note': must be a power of two from 128 to 8192" },
+      ":2: [instrument] channels = '2048 # note': must be a power of two from 128 to 16384" },
     { "negative unsigned", "[sky]\nseed = -1\n", ":2: [sky] seed = '-1': must be an integer from 0 to 4294967295" },
     { "negative unsigned, blocks", "[fidelity]\nblocks = -8\n",
       ":2: [fidelity] blocks = '-8': must be an integer from 8 to 1024" },
@@ -913,7 +913,7 @@ static void test_check_struct(void **state)
                 "blackman-harris4");
     tl_scenario_nominal(&s);
     s.cfg.points = 128;
-    check_fails(&s, NULL, "scenario: [instrument] channels = '64': must be a power of two from 128 to 8192");
+    check_fails(&s, NULL, "scenario: [instrument] channels = '64': must be a power of two from 128 to 16384");
     tl_scenario_nominal(&s);
     s.cfg.det_shift = 41;
     check_fails(&s, NULL,

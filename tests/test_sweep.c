@@ -503,7 +503,7 @@ static void test_refusals(void **state)
     char out[16384];
     /* bad values: one line naming the key, the value and the range; nothing written */
     expect_refusal("", "sweep tiny.ini --vary instrument.channels=128,100 --out bad1", 1,
-                   "[instrument] channels = '100': must be a power of two from 128 to 8192");
+                   "[instrument] channels = '100': must be a power of two from 128 to 16384");
     expect_refusal("", "sweep tiny.ini --vary integration.spectra=64,65 --out bad1", 1,
                    "spectra = '65': must be a multiple of [fidelity] blocks = 8");
     expect_refusal("", "sweep tiny.ini --vary instrument.window=hann,kaiser --out bad1", 1,

@@ -16,7 +16,7 @@
 static void source_regenerates(void **state)
 {
     (void)state;
-    tl_test_generated_matches("firmware/tl_twiddle_table.c", tl_gen_twiddle_source, 40000u); /* 4097 values */
+    tl_test_generated_matches("firmware/tl_twiddle_table.c", tl_gen_twiddle_source, 80000u); /* 8193 values */
 }
 
 static void table_matches_generator(void **state)
@@ -25,8 +25,8 @@ static void table_matches_generator(void **state)
     static int32_t c[TL_TWIDDLE_QUARTER + 1u];
     tl_gen_twiddle_cos(c);
     assert_memory_equal(c, tl_twiddle_cos, sizeof c);
-    assert_int_equal(TL_TWIDDLE_TURN, 16384);
-    assert_int_equal(TL_TWIDDLE_QUARTER, 4096);
+    assert_int_equal(TL_TWIDDLE_TURN, 32768);
+    assert_int_equal(TL_TWIDDLE_QUARTER, 8192);
     assert_int_equal(TL_TWIDDLE_ONE, 536870912); /* 2^29 */
 }
 
@@ -70,14 +70,14 @@ static void accuracy_every_index(void **state)
     for (uint32_t t = 0; t < TL_TWIDDLE_TURN; t++) {
         int32_t re = 0x7EADBEEF, im = 0x7EADBEEF;
         tl_twiddle(t, &re, &im);
-        const double theta = 2.0 * M_PI * (double)t / 16384.0;
+        const double theta = 2.0 * M_PI * (double)t / 32768.0;
         /* W^t = exp(-j theta) = cos(theta) - j sin(theta) */
         expect_q29(re, cos(theta), t, "re");
         expect_q29(im, -sin(theta), t, "im");
         const double e = fmax(fabs((double)re - ldexp(cos(theta), 29)), fabs((double)im + ldexp(sin(theta), 29)));
         worst = fmax(worst, e);
     }
-    /* rounding to nearest: the worst error over 16384 values gets close to
+    /* rounding to nearest: the worst error over 32768 values gets close to
      * half an LSB (and is never 0 for an irrational table) */
     assert_true(worst > 0.45 && worst <= 0.5 + 1e-9);
 }
@@ -88,9 +88,9 @@ static void trivial_twiddles_exact(void **state)
     const int32_t one = 536870912; /* 2^29 */
     const struct { uint32_t t; int32_t re, im; } exact[] = {
         { 0, one, 0 },       /* 1 */
-        { 4096, 0, -one },   /* -j */
-        { 8192, -one, 0 },   /* -1 */
-        { 12288, 0, one },   /* +j */
+        { 8192, 0, -one },   /* -j */
+        { 16384, -one, 0 },  /* -1 */
+        { 24576, 0, one },   /* +j */
     };
     for (size_t i = 0; i < 4u; i++) {
         int32_t re = 12345, im = 12345;
@@ -98,10 +98,10 @@ static void trivial_twiddles_exact(void **state)
         assert_int_equal(re, exact[i].re);
         assert_int_equal(im, exact[i].im);
     }
-    /* W^2048 = (1 - j)/sqrt(2): round(2^29 / sqrt(2)) = 379625062 (2^29 /
+    /* W^4096 = (1 - j)/sqrt(2): round(2^29 / sqrt(2)) = 379625062 (2^29 /
      * sqrt(2) = 379625062.497 [computed]) */
     int32_t re = 0, im = 0;
-    tl_twiddle(2048, &re, &im);
+    tl_twiddle(4096, &re, &im);
     assert_int_equal(re, 379625062);
     assert_int_equal(im, -379625062);
 }
@@ -130,11 +130,11 @@ static void conjugate_symmetry(void **state)
 static void index_modulo_turn(void **state)
 {
     (void)state;
-    const uint32_t ts[] = { 0, 1, 2048, 4095, 4096, 8191, 12289, 16383 };
+    const uint32_t ts[] = { 0, 1, 4096, 8191, 8192, 16383, 24577, 32767 };
     for (size_t i = 0; i < sizeof ts / sizeof ts[0]; i++) {
         int32_t ar, ai;
         tl_twiddle(ts[i], &ar, &ai);
-        const uint32_t wraps[] = { ts[i] + 16384u, ts[i] + 5u * 16384u, ts[i] + 262143u * 16384u };
+        const uint32_t wraps[] = { ts[i] + 32768u, ts[i] + 5u * 32768u, ts[i] + 131071u * 32768u };
         for (size_t k = 0; k < 3u; k++) {
             int32_t br, bi;
             tl_twiddle(wraps[k], &br, &bi);
@@ -142,7 +142,7 @@ static void index_modulo_turn(void **state)
             assert_int_equal(bi, ai);
         }
     }
-    /* UINT32_MAX = 2^32 - 1 is -1 modulo 16384: W^-1 = conj(W^1) */
+    /* UINT32_MAX = 2^32 - 1 is -1 modulo 32768: W^-1 = conj(W^1) */
     int32_t ar, ai, br, bi;
     tl_twiddle(1, &ar, &ai);
     tl_twiddle(UINT32_MAX, &br, &bi);

@@ -604,7 +604,7 @@ static void vectors_show_their_purpose(void **state)
         uint32_t channels;
     } enc[] = { { "bounded-bit-planes", 1, 512 },     { "bounded-byte-shuffle", 1, 512 },
                 { "lossless-byte-shuffle", 0, 512 }, { "channels-min", 0, 128 },
-                { "channels-m7-max", 0, 2048 },      { "channels-host-max", 0, 8192 },
+                { "channels-m7-max", 0, 2048 },      { "channels-host-max", 0, 16384 },
                 { "taps-host-max", 0, 128 },         { "builtin-table", 0, 4096 },
                 { "noise-nominal", 0, 256 } };
     for (size_t i = 0; i < sizeof enc / sizeof enc[0]; i++) {
