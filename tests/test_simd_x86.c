@@ -20,6 +20,7 @@
 #include "tl_crc32c.h"
 #include "tl_detect.h"
 #include "tl_fft.h"
+#include "tl_integrate.h"
 #include "tl_pfb.h"
 #include "vectors.h"
 
@@ -248,11 +249,72 @@ static void test_detect_both_paths(void **state)
     free(Pp);
 }
 
+/* Integration: the AVX2 twins of tl_integrate_power and tl_integrate_cross
+ * against the portable loops (whose saturating sums test_integrate checks
+ * against exact arithmetic). Ten spectra of random terms, a third of them
+ * near the top of their range so that channels saturate at different
+ * spectra in every lane position, for channel counts that leave a
+ * remainder; the whole integrator (sums, flags, counts) must be
+ * byte-identical, and every kind of saturation must have happened. */
+static void test_integrate_both_paths(void **state)
+{
+    if (!have_avx2(state))
+        skip();
+    tl_rng rng;
+    tl_rng_seed(&rng, tl_test_seed("simd_integrate", 20261202u));
+    tl_integrator *iv = calloc(1, sizeof *iv), *ip = calloc(1, sizeof *ip);
+    uint64_t *P = malloc(sizeof(uint64_t) * (TL_MAX_CHANNELS + 1u)); /* input 1 reads from P + 1 */
+    int64_t *re = malloc(sizeof(int64_t) * TL_MAX_CHANNELS), *im = malloc(sizeof(int64_t) * TL_MAX_CHANNELS);
+    assert_true(iv && ip && P && re && im);
+    static const uint32_t chans[] = { 1, 3, 4, 5, 8, 1000, 1031, TL_MAX_CHANNELS };
+    uint32_t seen[4] = { 0, 0, 0, 0 };
+    unsigned calls = 0;
+    const uint64_t calls0 = tl_simd_x86_calls();
+    for (unsigned ci = 0; ci < sizeof chans / sizeof chans[0]; ci++) {
+        tl_integrate_reset(iv, chans[ci]);
+        tl_integrate_reset(ip, chans[ci]);
+        for (unsigned sp = 0; sp < 10u; sp++) {
+            for (uint32_t k = 0; k < chans[ci]; k++) {
+                const uint64_t r = tl_rng_u64(&rng);
+                const int big = (r % 3u) == 0u; /* about UINT64_MAX / 6 on average: saturates in a few */
+                P[k + 1u] = P[k] = big ? (tl_rng_u64(&rng) >> 2) : (tl_rng_u64(&rng) >> 40);
+                re[k] = big ? (int64_t)(tl_rng_u64(&rng) >> 1) - (int64_t)(UINT64_C(1) << 62)
+                              - (int64_t)(UINT64_C(1) << 61) * (int64_t)((r >> 8) & 1u) * 2
+                            : (int64_t)(tl_rng_u64(&rng) >> 40) - (int64_t)(UINT64_C(1) << 23);
+                im[k] = big ? -re[k] / 2 * 3 : (int64_t)(tl_rng_u64(&rng) >> 41);
+            }
+            for (int path = 1; path >= 0; path--) {
+                tl_simd_x86_enable(path);
+                tl_integrator *it = path ? iv : ip;
+                tl_integrate_power(it, 0u, P);
+                tl_integrate_power(it, 1u, P + (sp % 2u)); /* the other input, shifted by one channel */
+                tl_integrate_cross(it, re, im);
+            }
+            tl_simd_x86_enable(1);
+            calls += 3u;
+            if (memcmp(iv, ip, sizeof *iv) != 0)
+                fail_msg("channels %u spectrum %u: the AVX2 integrator differs from the portable one", chans[ci], sp);
+        }
+        for (unsigned q = 0; q < 4u; q++)
+            seen[q] += ip->sat_channels[q];
+    }
+    assert_int_equal(tl_simd_x86_calls() - calls0, calls);
+    printf("simd_x86: integration, %u calls identical on both paths; saturated channels auto0 %u, auto1 %u, "
+           "cross re %u, cross im %u\n", calls, seen[0], seen[1], seen[2], seen[3]);
+    for (unsigned q = 0; q < 4u; q++)
+        assert_true(seen[q] > 100u);
+    free(iv);
+    free(ip);
+    free(P);
+    free(re);
+    free(im);
+}
+
 /* The chain's input copy and ADC statistics: the AVX2 twin against the
  * portable loop of tl_chain.c copy_in written out here (exact integer
  * counts): every drop 0 .. 15 with its clip code, lengths that leave a
- * remainder and lengths past the 1024-vector flush of the 16-bit lane
- * counters, random words and the edges (INT16_MIN, INT16_MAX, the clip
+ * remainder and lengths past the 4096-sample chunk of the lane
+ * counters, every sample in one bin (the byte counters' largest count), random words and the edges (INT16_MIN, INT16_MAX, the clip
  * code and one below). */
 static void test_adc_both_paths(void **state)
 {
@@ -301,6 +363,20 @@ static void test_adc_both_paths(void **state)
         }
     }
     assert_true(clipped > 1000u);
+    /* every sample in one bin: each byte counter of the AVX2 histogram
+     * reaches its largest count (128 per chunk of 4096 samples) */
+    for (uint32_t bin = 0; bin < 16u; bin++) {
+        const uint32_t n = 3u * 4096u + 40u;
+        for (uint32_t i = 0; i < n; i++)
+            src[i] = (int16_t)((int32_t)(bin * 4096u) - 32768 + (int32_t)((i * 37u) % 4096u));
+        uint32_t cv = 0, hv[16] = { 0 };
+        uint64_t sv = 0;
+        tl_adc_copy_avx2(src, dv, n, INT16_MAX, 0u, &cv, hv, &sv);
+        for (uint32_t b = 0; b < 16u; b++)
+            if (hv[b] != (b == bin ? n : 0u))
+                fail_msg("all %u samples in bin %u: the AVX2 histogram has %u in bin %u", n, bin, hv[b], b);
+        compared++;
+    }
     printf("simd_x86: ADC copy and statistics, %u blocks identical to the portable loop\n", compared);
     free(src);
     free(dv);
@@ -351,6 +427,7 @@ int main(void)
         cmocka_unit_test(test_fft_both_paths),
         cmocka_unit_test(test_pfb_both_paths),
         cmocka_unit_test(test_detect_both_paths),
+        cmocka_unit_test(test_integrate_both_paths),
         cmocka_unit_test(test_adc_both_paths),
         cmocka_unit_test(test_crc32c_both_paths),
     };

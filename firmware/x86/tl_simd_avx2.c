@@ -539,65 +539,217 @@ void tl_detect_power_avx2(const int32_t *X, uint32_t channels, unsigned shift, u
     power_body(X, channels, shift, add, odd, P);
 }
 
+/* ---- integration ---------------------------------------------------------- */
+/* Flag and count channel k as tl_integrate.c mark does. Reached only when
+ * a sum saturates. */
+static void mark_one(uint32_t k, uint8_t *flags, uint8_t bit, uint32_t *count)
+{
+    if ((flags[k] & bit) == 0u) {
+        flags[k] = (uint8_t)(flags[k] | bit);
+        (*count)++;
+    }
+}
+
+static void mark_lanes(unsigned mask, uint32_t k, uint8_t *flags, uint8_t bit, uint32_t *count)
+{
+    for (unsigned l = 0; l < 4u; l++)
+        if ((mask >> l) & 1u)
+            mark_one(k + l, flags, bit, count);
+}
+
+/* Unsigned r = a + p wrapped iff r < p, tested as signed after flipping
+ * the sign bits (AVX2 has only the signed 64-bit compare); a wrapped lane
+ * is set to all ones, UINT64_MAX. Eight channels per step; the lanes are
+ * looked at one by one only when one of them saturated. */
+static inline TL_AVX2 __m256i sat_add_u64(__m256i a, __m256i p, __m256i sign, __m256i *wrap)
+{
+    const __m256i r = _mm256_add_epi64(a, p);
+    *wrap = _mm256_cmpgt_epi64(_mm256_xor_si256(p, sign), _mm256_xor_si256(r, sign));
+    return _mm256_or_si256(r, *wrap);
+}
+
+static TL_AVX2 void power_sum_body(uint64_t *acc, const uint64_t *P, uint32_t n, uint8_t *flags, uint8_t bit,
+                                   uint32_t *count)
+{
+    const __m256i sign = _mm256_set1_epi64x(INT64_MIN);
+    size_t k = 0;
+    for (; k + 8u <= n; k += 8u) {
+        __m256i w0, w1;
+        const __m256i r0 = sat_add_u64(_mm256_loadu_si256((const __m256i *)(const void *)&acc[k]),
+                                       _mm256_loadu_si256((const __m256i *)(const void *)&P[k]), sign, &w0);
+        const __m256i r1 = sat_add_u64(_mm256_loadu_si256((const __m256i *)(const void *)&acc[k + 4u]),
+                                       _mm256_loadu_si256((const __m256i *)(const void *)&P[k + 4u]), sign, &w1);
+        _mm256_storeu_si256((__m256i *)(void *)&acc[k], r0);
+        _mm256_storeu_si256((__m256i *)(void *)&acc[k + 4u], r1);
+        if (!_mm256_testz_si256(_mm256_or_si256(w0, w1), _mm256_or_si256(w0, w1))) {
+            mark_lanes((unsigned)_mm256_movemask_pd(_mm256_castsi256_pd(w0)), (uint32_t)k, flags, bit, count);
+            mark_lanes((unsigned)_mm256_movemask_pd(_mm256_castsi256_pd(w1)), (uint32_t)k + 4u, flags, bit, count);
+        }
+    }
+    for (; k < n; k++) { /* tl_sat_add_u64 */
+        const uint64_t r = acc[k] + P[k];
+        if (r < acc[k]) {
+            acc[k] = UINT64_MAX;
+            mark_one((uint32_t)k, flags, bit, count);
+        } else {
+            acc[k] = r;
+        }
+    }
+}
+
+void tl_integrate_power_avx2(uint64_t *acc, const uint64_t *P, uint32_t n, uint8_t *flags, uint8_t bit,
+                             uint32_t *count)
+{
+    count_call();
+    power_sum_body(acc, P, n, flags, bit, count);
+}
+
+/* Signed r = a + b overflows iff a and b share a sign that r lacks:
+ * (~(a ^ b) & (a ^ r)) < 0; the saturated value is INT64_MAX xor (a < 0
+ * ? all ones : 0), which is INT64_MIN for negative a (tl_sat_add_s64). */
+static inline TL_AVX2 __m256i sat_add_s64(__m256i a, __m256i b, __m256i *ovm)
+{
+    const __m256i zero = _mm256_setzero_si256(), max = _mm256_set1_epi64x(INT64_MAX);
+    const __m256i r = _mm256_add_epi64(a, b);
+    const __m256i ov = _mm256_andnot_si256(_mm256_xor_si256(a, b), _mm256_xor_si256(a, r));
+    *ovm = _mm256_cmpgt_epi64(zero, ov);
+    return _mm256_blendv_epi8(r, _mm256_xor_si256(_mm256_cmpgt_epi64(zero, a), max), *ovm);
+}
+
+static int64_t sat_add_s64_one(int64_t a, int64_t b, int *sat)
+{
+    const uint64_t ur = (uint64_t)a + (uint64_t)b;
+    if (((~((uint64_t)a ^ (uint64_t)b)) & ((uint64_t)a ^ ur)) >> 63) {
+        *sat = 1;
+        return a < 0 ? INT64_MIN : INT64_MAX;
+    }
+    return a + b; /* in range: no overflow */
+}
+
+static TL_AVX2 void cross_sum_body(int64_t *acc_re, int64_t *acc_im, const int64_t *re, const int64_t *im,
+                                   uint32_t n, uint8_t *flags, uint8_t bit_re, uint8_t bit_im, uint32_t count[2])
+{
+    size_t k = 0;
+    for (; k + 4u <= n; k += 4u) {
+        __m256i mr, mi;
+        const __m256i r = sat_add_s64(_mm256_loadu_si256((const __m256i *)(const void *)&acc_re[k]),
+                                      _mm256_loadu_si256((const __m256i *)(const void *)&re[k]), &mr);
+        const __m256i i = sat_add_s64(_mm256_loadu_si256((const __m256i *)(const void *)&acc_im[k]),
+                                      _mm256_loadu_si256((const __m256i *)(const void *)&im[k]), &mi);
+        _mm256_storeu_si256((__m256i *)(void *)&acc_re[k], r);
+        _mm256_storeu_si256((__m256i *)(void *)&acc_im[k], i);
+        if (!_mm256_testz_si256(_mm256_or_si256(mr, mi), _mm256_or_si256(mr, mi))) {
+            mark_lanes((unsigned)_mm256_movemask_pd(_mm256_castsi256_pd(mr)), (uint32_t)k, flags, bit_re, &count[0]);
+            mark_lanes((unsigned)_mm256_movemask_pd(_mm256_castsi256_pd(mi)), (uint32_t)k, flags, bit_im, &count[1]);
+        }
+    }
+    for (; k < n; k++) {
+        int sr = 0, si = 0;
+        acc_re[k] = sat_add_s64_one(acc_re[k], re[k], &sr);
+        acc_im[k] = sat_add_s64_one(acc_im[k], im[k], &si);
+        if (sr)
+            mark_one((uint32_t)k, flags, bit_re, &count[0]);
+        if (si)
+            mark_one((uint32_t)k, flags, bit_im, &count[1]);
+    }
+}
+
+void tl_integrate_cross_avx2(int64_t *acc_re, int64_t *acc_im, const int64_t *re, const int64_t *im, uint32_t n,
+                             uint8_t *flags, uint8_t bit_re, uint8_t bit_im, uint32_t count[2])
+{
+    count_call();
+    cross_sum_body(acc_re, acc_im, re, im, n, flags, bit_re, bit_im, count);
+}
+
 /* ---- ADC statistics and copy (tl_chain.c copy_in) --------------------- */
-/* 16 samples per vector. Counts in 16-bit lanes, flushed every 1024
- * vectors (a lane gains at most 1 per vector): clips = #(v >= hi) +
- * #(v == INT16_MIN) (v >= hi counted as n - #(hi > v)); bin = (v + 32768)
- * >> 12 = (v xor 0x8000) >> 12; |v| >> drop as an unsigned 16-bit value
- * (_mm256_abs_epi16 gives 0x8000 for INT16_MIN, read as 32768) and its
- * square through _mm256_madd_epi16: the signed product of 0x8000 with
- * itself is also 2^30, and the sum of two squares (<= 2^31) is exact as
- * an unsigned 32-bit value, widened to 64 bits before it is added. */
+/* The samples go in chunks of up to ADC_CHUNK (a multiple of 32); the
+ * vector part covers n rounded down to 32, the rest is done as tl_chain.c.
+ * First pass, 16 samples per vector: the copy, clips = #(v >= hi) +
+ * #(v == INT16_MIN) (v >= hi counted as n - #(hi > v)) in 16-bit lane
+ * counters (at most ADC_CHUNK / 16 = 256 per lane per chunk), and |v| >>
+ * drop as an unsigned 16-bit value (_mm256_abs_epi16 gives 0x8000 for
+ * INT16_MIN, read as 32768) squared through _mm256_madd_epi16: the signed
+ * product of 0x8000 with itself is also 2^30, and the sum of two squares
+ * (<= 2^31) is exact as an unsigned 32-bit value, widened to 64 bits before
+ * it is added. Then the histogram, bin = (v + 32768) >> 12 = (v xor 0x8000)
+ * >> 12, in two passes of 8 bins over the chunk (still in the L1 cache),
+ * so that the counters stay in registers: 32 bins packed into bytes per
+ * step, byte counters (at most ADC_CHUNK / 32 = 128 per lane per chunk)
+ * summed with _mm256_sad_epu8 at the end of the chunk. */
+#define ADC_CHUNK 4096u
+
+static inline TL_AVX2 uint32_t sum_u16_lanes(__m256i v)
+{
+    uint16_t lane[16];
+    _mm256_storeu_si256((__m256i *)(void *)lane, v);
+    uint32_t t = 0;
+    for (unsigned l = 0; l < 16u; l++)
+        t += lane[l];
+    return t;
+}
+
+static inline TL_AVX2 uint32_t sum_u8_lanes(__m256i v)
+{
+    uint64_t q[4];
+    _mm256_storeu_si256((__m256i *)(void *)q, _mm256_sad_epu8(v, _mm256_setzero_si256()));
+    return (uint32_t)(q[0] + q[1] + q[2] + q[3]);
+}
+
+/* The histogram of src[0 .. len-1] (len a multiple of 32, at most
+ * ADC_CHUNK) for bins first .. first + 7, added to hist. */
+static inline TL_AVX2 void adc_hist8(const int16_t *src, uint32_t len, unsigned first, uint32_t hist[16])
+{
+    const __m256i sign = _mm256_set1_epi16(INT16_MIN);
+    __m256i h[8], key[8];
+    for (unsigned b = 0; b < 8u; b++) {
+        h[b] = _mm256_setzero_si256();
+        key[b] = _mm256_set1_epi8((char)(first + b));
+    }
+    for (uint32_t i = 0; i < len; i += 32u) {
+        const __m256i a = _mm256_srli_epi16(
+            _mm256_xor_si256(_mm256_loadu_si256((const __m256i *)(const void *)&src[i]), sign), 12);
+        const __m256i c = _mm256_srli_epi16(
+            _mm256_xor_si256(_mm256_loadu_si256((const __m256i *)(const void *)&src[i + 16u]), sign), 12);
+        const __m256i bins = _mm256_packus_epi16(a, c); /* 32 bins 0 .. 15, order irrelevant */
+#pragma GCC unroll 8
+        for (unsigned b = 0; b < 8u; b++)
+            h[b] = _mm256_sub_epi8(h[b], _mm256_cmpeq_epi8(bins, key[b]));
+    }
+    for (unsigned b = 0; b < 8u; b++)
+        hist[first + b] += sum_u8_lanes(h[b]);
+}
+
 static TL_AVX2 void adc_body(const int16_t *src, int16_t *dst, uint32_t n, int16_t hi, unsigned drop,
                              uint32_t *clips, uint32_t hist[16], uint64_t *sumsq)
 {
     const __m256i hiv = _mm256_set1_epi16(hi), minv = _mm256_set1_epi16(INT16_MIN);
-    const __m256i sign = _mm256_set1_epi16(INT16_MIN);
     const __m128i dr = _mm_cvtsi32_si128((int)drop);
-    uint64_t below = 0, mins = 0, total = 0;
+    const uint32_t nv = n & ~31u;
+    uint64_t below = 0, mins = 0;
     __m256i sq = _mm256_setzero_si256();
-    uint32_t i = 0;
-    while (i + 16u <= n) {
+    for (uint32_t c0 = 0; c0 < nv; c0 += ADC_CHUNK) {
+        const uint32_t len = nv - c0 < ADC_CHUNK ? nv - c0 : ADC_CHUNK;
         __m256i lt = _mm256_setzero_si256(), mn = _mm256_setzero_si256();
-        __m256i h[16];
-        for (unsigned b = 0; b < 16u; b++)
-            h[b] = _mm256_setzero_si256();
-        uint32_t blk = 0;
-        for (; blk < 1024u && i + 16u <= n; blk++, i += 16u) {
+        for (uint32_t i = c0; i < c0 + len; i += 16u) {
             const __m256i v = _mm256_loadu_si256((const __m256i *)(const void *)&src[i]);
             _mm256_storeu_si256((__m256i *)(void *)&dst[i], v);
             lt = _mm256_sub_epi16(lt, _mm256_cmpgt_epi16(hiv, v));
             mn = _mm256_sub_epi16(mn, _mm256_cmpeq_epi16(v, minv));
-            const __m256i bin = _mm256_srli_epi16(_mm256_xor_si256(v, sign), 12);
-#pragma GCC unroll 16
-            for (unsigned b = 0; b < 16u; b++)
-                h[b] = _mm256_sub_epi16(h[b], _mm256_cmpeq_epi16(bin, _mm256_set1_epi16((short)b)));
             const __m256i mag = _mm256_srl_epi16(_mm256_abs_epi16(v), dr);
             const __m256i p = _mm256_madd_epi16(mag, mag); /* 8 x uint32 */
             sq = _mm256_add_epi64(sq, _mm256_cvtepu32_epi64(_mm256_castsi256_si128(p)));
             sq = _mm256_add_epi64(sq, _mm256_cvtepu32_epi64(_mm256_extracti128_si256(p, 1)));
         }
-        total += 16u * (uint64_t)blk;
-        uint16_t lane[16];
-        _mm256_storeu_si256((__m256i *)(void *)lane, lt);
-        for (unsigned l = 0; l < 16u; l++)
-            below += lane[l];
-        _mm256_storeu_si256((__m256i *)(void *)lane, mn);
-        for (unsigned l = 0; l < 16u; l++)
-            mins += lane[l];
-        for (unsigned b = 0; b < 16u; b++) {
-            _mm256_storeu_si256((__m256i *)(void *)lane, h[b]);
-            uint32_t t = 0;
-            for (unsigned l = 0; l < 16u; l++)
-                t += lane[l];
-            hist[b] += t;
-        }
+        below += sum_u16_lanes(lt);
+        mins += sum_u16_lanes(mn);
+        adc_hist8(src + c0, len, 0u, hist);
+        adc_hist8(src + c0, len, 8u, hist);
     }
     uint64_t q[4];
     _mm256_storeu_si256((__m256i *)(void *)q, sq);
     uint64_t ssum = q[0] + q[1] + q[2] + q[3];
-    uint32_t c = (uint32_t)(total - below + mins);
-    for (; i < n; i++) { /* the rest as tl_chain.c */
+    uint32_t c = (uint32_t)(nv - below + mins);
+    for (uint32_t i = nv; i < n; i++) { /* the rest as tl_chain.c */
         const int16_t v = src[i];
         c += (uint32_t)(v >= hi) + (uint32_t)(v == INT16_MIN);
         hist[(uint32_t)((int32_t)v + 32768) >> 12]++;

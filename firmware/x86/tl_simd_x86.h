@@ -78,6 +78,17 @@ uint32_t tl_fft_split_avx2(const int32_t *Z, int32_t *X, uint32_t L, const int32
 void tl_detect_power_avx2(const int32_t *X, uint32_t channels, unsigned shift, uint64_t add, uint64_t odd,
                           uint64_t *P);
 
+/* Integration: acc[k] = acc[k] + P[k] saturated at UINT64_MAX
+ * (tl_sat_add_u64), k < n; a channel that saturates gets `bit` in
+ * flags[k] and, the first time, *count += 1 (tl_integrate.c mark). */
+void tl_integrate_power_avx2(uint64_t *acc, const uint64_t *P, uint32_t n, uint8_t *flags, uint8_t bit,
+                                 uint32_t *count);
+
+/* The same for the cross-power sums (tl_sat_add_s64 on re and im, flag
+ * bits bit_re and bit_im, counts count[0] and count[1]). */
+void tl_integrate_cross_avx2(int64_t *acc_re, int64_t *acc_im, const int64_t *re, const int64_t *im, uint32_t n,
+                             uint8_t *flags, uint8_t bit_re, uint8_t bit_im, uint32_t count[2]);
+
 /* tl_crc32c_update (the register value, no inversion) with the SSE4.2
  * crc32 instruction. Not counted by tl_simd_x86_calls. */
 uint32_t tl_crc32c_update_sse42(uint32_t crc, const uint8_t *data, size_t len);
