@@ -586,14 +586,11 @@ static TL_AVX2 void power_sum_body(uint64_t *acc, const uint64_t *P, uint32_t n,
             mark_lanes((unsigned)_mm256_movemask_pd(_mm256_castsi256_pd(w1)), (uint32_t)k + 4u, flags, bit, count);
         }
     }
-    for (; k < n; k++) { /* tl_sat_add_u64 */
-        const uint64_t r = acc[k] + P[k];
-        if (r < acc[k]) {
-            acc[k] = UINT64_MAX;
+    for (; k < n; k++) {
+        uint32_t sat = 0;
+        acc[k] = tl_sat_add_u64(acc[k], P[k], &sat);
+        if (sat != 0u)
             mark_one((uint32_t)k, flags, bit, count);
-        } else {
-            acc[k] = r;
-        }
     }
 }
 
@@ -616,16 +613,6 @@ static inline TL_AVX2 __m256i sat_add_s64(__m256i a, __m256i b, __m256i *ovm)
     return _mm256_blendv_epi8(r, _mm256_xor_si256(_mm256_cmpgt_epi64(zero, a), max), *ovm);
 }
 
-static int64_t sat_add_s64_one(int64_t a, int64_t b, int *sat)
-{
-    const uint64_t ur = (uint64_t)a + (uint64_t)b;
-    if (((~((uint64_t)a ^ (uint64_t)b)) & ((uint64_t)a ^ ur)) >> 63) {
-        *sat = 1;
-        return a < 0 ? INT64_MIN : INT64_MAX;
-    }
-    return a + b; /* in range: no overflow */
-}
-
 static TL_AVX2 void cross_sum_body(int64_t *acc_re, int64_t *acc_im, const int64_t *re, const int64_t *im,
                                    uint32_t n, uint8_t *flags, uint8_t bit_re, uint8_t bit_im, uint32_t count[2])
 {
@@ -644,12 +631,12 @@ static TL_AVX2 void cross_sum_body(int64_t *acc_re, int64_t *acc_im, const int64
         }
     }
     for (; k < n; k++) {
-        int sr = 0, si = 0;
-        acc_re[k] = sat_add_s64_one(acc_re[k], re[k], &sr);
-        acc_im[k] = sat_add_s64_one(acc_im[k], im[k], &si);
-        if (sr)
+        uint32_t sr = 0, si = 0;
+        acc_re[k] = tl_sat_add_s64(acc_re[k], re[k], &sr);
+        acc_im[k] = tl_sat_add_s64(acc_im[k], im[k], &si);
+        if (sr != 0u)
             mark_one((uint32_t)k, flags, bit_re, &count[0]);
-        if (si)
+        if (si != 0u)
             mark_one((uint32_t)k, flags, bit_im, &count[1]);
     }
 }
