@@ -517,6 +517,11 @@ tl_status tl_chain_take(tl_chain *c, tl_product *out)
     (void)tl_scrub_all(&c->scrub, c);
     if (!guard(c))
         return TL_E_NOT_INIT;
+    /* and every bank's running sums against their check (tl_integrate.h):
+     * a flipped bit there cannot be repaired, so the product is flagged */
+    for (uint32_t s = 0; s < TL_STATES; s++)
+        if (!tl_integrate_verify(&c->integ[s]))
+            tl_scrub_state_fault(&c->scrub);
     const uint32_t channels = c->cfg.points / 2u;
     const tl_integrator *ant = &c->integ[TL_STATE_ANTENNA];
     const int two = c->cfg.inputs == 2u;

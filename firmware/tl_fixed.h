@@ -29,6 +29,14 @@
 #define TL_ALWAYS_INLINE inline
 #endif
 
+/* Keep a rarely taken path out of a hot loop, so that the loop's registers
+ * are not spent on it. */
+#if defined(__GNUC__)
+#define TL_NOINLINE __attribute__((noinline))
+#else
+#define TL_NOINLINE
+#endif
+
 typedef enum tl_rounding {
     TL_ROUND_TRUNCATE = 0,
     TL_ROUND_HALF_UP = 1,

@@ -18,15 +18,45 @@ void tl_integrate_reset(tl_integrator *it, uint32_t channels)
         it->cross_im[k] = 0;
         it->flags[k] = 0;
     }
+    it->check = 0;
 }
 
-/* Record a saturation of one channel: flag it, count it the first time. */
+/* Record a saturation of one channel: flag it, count it the first time
+ * (the flag octet grows by `bit`, the count by 1: both go into check). */
 static void mark(tl_integrator *it, uint32_t k, uint8_t bit, uint32_t which)
 {
     if ((it->flags[k] & bit) == 0u) {
         it->flags[k] = (uint8_t)(it->flags[k] | bit);
         it->sat_channels[which]++;
+        it->check += (uint64_t)bit + 1u;
     }
+}
+
+int tl_integrate_verify(const tl_integrator *it)
+{
+    const uint32_t n = it->channels < TL_MAX_CHANNELS ? it->channels : TL_MAX_CHANNELS;
+    uint64_t s = 0;
+    for (uint32_t i = 0; i < 4u; i++)
+        s += it->sat_channels[i];
+    for (uint32_t k = 0; k < n; k++) {
+        for (uint32_t i = 0; i < TL_MAX_INPUTS; i++)
+            s += it->auto_sum[i][k];
+        s += (uint64_t)it->cross_re[k] + (uint64_t)it->cross_im[k] + it->flags[k];
+    }
+    return s == it->check;
+}
+
+/* The saturating end of tl_integrate_power's add, out of the loop:
+ * acc[k] + p wrapped, so the sum stops at UINT64_MAX. The loop has counted
+ * p into its growth; the word grew by UINT64_MAX - old: returns the
+ * difference. */
+static TL_NOINLINE uint64_t power_saturated(tl_integrator *it, uint64_t *acc, uint32_t k, uint64_t p, uint8_t bit,
+                                            uint32_t input)
+{
+    const uint64_t fix = UINT64_MAX - acc[k] - p;
+    acc[k] = UINT64_MAX;
+    mark(it, k, bit, input);
+    return fix;
 }
 
 void tl_integrate_power(tl_integrator *it, uint32_t input, const uint64_t *P)
@@ -34,35 +64,66 @@ void tl_integrate_power(tl_integrator *it, uint32_t input, const uint64_t *P)
     uint64_t *acc = it->auto_sum[input];
     const uint8_t bit = (input == 0u) ? TL_FLAG_SAT_AUTO0 : TL_FLAG_SAT_AUTO1;
 #if defined(TL_SIMD_X86)
-    if (tl_simd_x86_active()) { /* AVX2 twin, same sums, flags and counts */
-        tl_integrate_power_avx2(acc, P, it->channels, it->flags, bit, &it->sat_channels[input]);
+    if (tl_simd_x86_active()) { /* AVX2 twin, same sums, flags, counts and check */
+        tl_integrate_power_avx2(acc, P, it->channels, it->flags, bit, &it->sat_channels[input], &it->check);
         return;
     }
 #endif
+    uint64_t grew = 0; /* what the sums grew by, mod 2^64 */
     for (uint32_t k = 0; k < it->channels; k++) {
-        uint32_t sat = 0;
-        acc[k] = tl_sat_add_u64(acc[k], P[k], &sat);
-        if (sat != 0u)
-            mark(it, k, bit, input);
+        const uint64_t p = P[k];
+        const uint64_t r = acc[k] + p; /* tl_sat_add_u64: unsigned wrap is defined, and wrapped iff r < p */
+        grew += p;
+        if (r >= p)
+            acc[k] = r;
+        else
+            grew += power_saturated(it, acc, k, p, bit, input);
     }
+    it->check += grew;
+}
+
+/* A cross-power add that saturated, out of the loop: tl_sat_add_s64.
+ * Returns what the word really changed by minus b (which the loop
+ * counted). */
+static TL_NOINLINE uint64_t cross_saturated(tl_integrator *it, int64_t *acc, uint32_t k, int64_t b, uint8_t bit,
+                                            uint32_t which)
+{
+    uint32_t sat = 0;
+    const int64_t old = acc[k];
+    acc[k] = tl_sat_add_s64(old, b, &sat);
+    if (sat != 0u)
+        mark(it, k, bit, which);
+    return (uint64_t)acc[k] - (uint64_t)old - (uint64_t)b;
+}
+
+/* One part (re or im) of the cross-power sums; returns what its words grew
+ * by, mod 2^64. The parts go in separate loops so that a 32-bit target
+ * keeps every 64-bit value of the loop in registers. */
+static uint64_t cross_part(tl_integrator *it, int64_t *acc, const int64_t *b, uint8_t bit, uint32_t which)
+{
+    uint64_t grew = 0;
+    for (uint32_t k = 0; k < it->channels; k++) {
+        const uint64_t ua = (uint64_t)acc[k], ub = (uint64_t)b[k], ur = ua + ub;
+        grew += ub;
+        /* tl_sat_add_s64's test: overflow iff a and b share a sign that the sum lacks */
+        if ((((~(ua ^ ub)) & (ua ^ ur)) >> 63) == 0u)
+            acc[k] += b[k]; /* in range: no overflow */
+        else
+            grew += cross_saturated(it, acc, k, b[k], bit, which);
+    }
+    return grew;
 }
 
 void tl_integrate_cross(tl_integrator *it, const int64_t *re, const int64_t *im)
 {
 #if defined(TL_SIMD_X86)
-    if (tl_simd_x86_active()) { /* AVX2 twin, same sums, flags and counts */
+    if (tl_simd_x86_active()) { /* AVX2 twin, same sums, flags, counts and check */
         tl_integrate_cross_avx2(it->cross_re, it->cross_im, re, im, it->channels, it->flags, TL_FLAG_SAT_CROSS_RE,
-                                TL_FLAG_SAT_CROSS_IM, &it->sat_channels[2]);
+                                TL_FLAG_SAT_CROSS_IM, &it->sat_channels[2], &it->check);
         return;
     }
 #endif
-    for (uint32_t k = 0; k < it->channels; k++) {
-        uint32_t sr = 0, si = 0;
-        it->cross_re[k] = tl_sat_add_s64(it->cross_re[k], re[k], &sr);
-        it->cross_im[k] = tl_sat_add_s64(it->cross_im[k], im[k], &si);
-        if (sr != 0u)
-            mark(it, k, TL_FLAG_SAT_CROSS_RE, 2u);
-        if (si != 0u)
-            mark(it, k, TL_FLAG_SAT_CROSS_IM, 3u);
-    }
+    const uint64_t grew = cross_part(it, it->cross_re, re, TL_FLAG_SAT_CROSS_RE, 2u) +
+                          cross_part(it, it->cross_im, im, TL_FLAG_SAT_CROSS_IM, 3u);
+    it->check += grew;
 }

@@ -6,6 +6,15 @@
  * integration gets a flag bit and is counted once per product type. The
  * sums are exact integers: integrating M spectra, or J pieces of M/J and
  * adding them, gives the same numbers unless something saturated.
+ *
+ * Upset check: `check` is kept equal to the wrapping (mod 2^64) sum of
+ * every auto_sum, cross_re and cross_im word (as uint64), every flags
+ * octet and every sat_channels count, for the channels in use, by adding
+ * each change as it is made (new minus old). tl_integrate_verify sums the
+ * words again: one flipped bit anywhere in them, or in `check`, changes
+ * one side by +-2^b (b < 64), which is never 0 mod 2^64, so every single
+ * bit upset of the running sums is found (tl_chain_take checks every bank
+ * before it releases a product; docs/faults.md).
  */
 #ifndef TL_INTEGRATE_H
 #define TL_INTEGRATE_H
@@ -29,6 +38,7 @@ typedef struct tl_integrator {
     int64_t cross_re[TL_MAX_CHANNELS];
     int64_t cross_im[TL_MAX_CHANNELS];
     uint8_t flags[TL_MAX_CHANNELS];
+    uint64_t check;             /* wrapping sum of the words above (see the top of this file) */
 } tl_integrator;
 
 /* Zero every sum, flag and count for `channels` channels (<= TL_MAX_CHANNELS). */
@@ -39,5 +49,10 @@ void tl_integrate_power(tl_integrator *it, uint32_t input, const uint64_t *P);
 
 /* cross_re[k] += re[k], cross_im[k] += im[k], saturating. */
 void tl_integrate_cross(tl_integrator *it, const int64_t *re, const int64_t *im);
+
+/* 1 if `check` equals the sum of the words it covers (channels clamped to
+ * TL_MAX_CHANNELS), 0 if a bit of them or of `check` has flipped. Costs
+ * 5 channels' words of additions per channel, once per integration. */
+int tl_integrate_verify(const tl_integrator *it);
 
 #endif

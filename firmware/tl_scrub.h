@@ -49,7 +49,11 @@
  *     octets / slice)) x period frames;
  *   - every region is checked whole before each product is released
  *     (tl_chain_take), so a corruption that existed at any time during an
- *     integration is found before that integration leaves the chain.
+ *     integration is found before that integration leaves the chain;
+ *   - at the same release, every integration bank's running sums are
+ *     verified against their check (tl_integrate_verify); a failure cannot
+ *     be repaired and counts as a running-state fault
+ *     (tl_scrub_state_fault), which flags the integration.
  * A mismatch restores the region, is counted, and marks the running
  * integration: tl_chain_take sets TL_FLAG_UPSET on every channel of it.
  * Ownership: tl_chain holds the scrubber by value.
@@ -133,7 +137,8 @@ uint32_t tl_scrub_spectrum(tl_scrub *s, struct tl_chain *c);
 /* Every region whole (the release check). Returns the bad-region mask. */
 uint32_t tl_scrub_all(tl_scrub *s, struct tl_chain *c);
 
-/* Count a failed range check of the running state (tl_chain repairs it). */
+/* Count a running-state fault: a failed range check (tl_chain repairs
+ * it) or a bank of running sums failing its check at release. */
 void tl_scrub_state_fault(tl_scrub *s);
 
 #endif

@@ -122,6 +122,7 @@ static void target_spans(const tl_chain *c, unsigned t, spans *v)
             add(v, INTEG(s, cross_im), 8u * ch);
             add(v, INTEG(s, flags), ch);
             add(v, INTEG(s, sat_channels), 4u * sizeof(uint32_t));
+            add(v, INTEG(s, check), sizeof(uint64_t));
         }
         add(v, CH(stats), sizeof(tl_stats));
         break;

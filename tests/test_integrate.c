@@ -1,7 +1,7 @@
 /*
  * test_integrate.c - saturating 64-bit integration (firmware/tl_integrate.h):
- * exact sums, saturation flags and per-channel counts, reset, and the
- * split-integration identity.
+ * exact sums, saturation flags and per-channel counts, reset, the
+ * split-integration identity, and the upset check of the running sums.
  */
 #include "tl_test.h"
 
@@ -366,6 +366,84 @@ static void split_integration_adds_up(void **state)
     free(whole);
 }
 
+/* The check of the running sums (tl_integrate.h): after spectra that
+ * saturate every kind of sum it still verifies, equals the wrapping sum of
+ * the covered words written out here, and one flipped bit in any covered
+ * word, at any bit position, or in the check itself, makes the verify fail
+ * (a single flip changes the sum by +-2^b, never 0 mod 2^64: arithmetic,
+ * no source needed). Words past `channels` are not covered. */
+static void check_finds_every_flip(void **state)
+{
+    (void)state;
+    enum { C = 37 };
+    tl_integrator *it = new_integrator(C);
+    assert_true(tl_integrate_verify(it));
+    tl_rng rng;
+    tl_rng_seed(&rng, tl_test_seed("integrate_check", 7u));
+    uint64_t P[C];
+    int64_t re[C], im[C];
+    for (unsigned sp = 0; sp < 12u; sp++) {
+        for (uint32_t k = 0; k < C; k++) {
+            const int big = (k % 5u) == 0u; /* these channels saturate within a few spectra */
+            P[k] = big ? (tl_rng_u64(&rng) >> 1) : (tl_rng_u64(&rng) >> 30);
+            re[k] = big ? (int64_t)(tl_rng_u64(&rng) >> 2) : (int64_t)(tl_rng_u64(&rng) >> 34) - (INT64_C(1) << 29);
+            im[k] = big ? -(int64_t)(tl_rng_u64(&rng) >> 2) : (int64_t)(tl_rng_u64(&rng) >> 34) - (INT64_C(1) << 29);
+        }
+        tl_integrate_power(it, 0u, P);
+        tl_integrate_power(it, 1u, P);
+        tl_integrate_cross(it, re, im);
+        assert_true(tl_integrate_verify(it));
+    }
+    for (unsigned q = 0; q < 4u; q++)
+        assert_true(it->sat_channels[q] > 0u);
+    uint64_t sum = 0;
+    for (unsigned q = 0; q < 4u; q++)
+        sum += it->sat_channels[q];
+    for (uint32_t k = 0; k < C; k++)
+        sum += it->auto_sum[0][k] + it->auto_sum[1][k] + (uint64_t)it->cross_re[k] + (uint64_t)it->cross_im[k] +
+               it->flags[k];
+    assert_true(sum == it->check);
+    /* every bit of every covered word */
+    unsigned flips = 0;
+    uint8_t *words[] = { (uint8_t *)it->auto_sum[0], (uint8_t *)it->auto_sum[1], (uint8_t *)it->cross_re,
+                         (uint8_t *)it->cross_im };
+    for (unsigned w = 0; w < 4u; w++)
+        for (uint32_t bit = 0; bit < 64u * C; bit++) {
+            words[w][bit / 8u] ^= (uint8_t)(1u << (bit % 8u));
+            assert_false(tl_integrate_verify(it));
+            words[w][bit / 8u] ^= (uint8_t)(1u << (bit % 8u));
+            flips++;
+        }
+    for (uint32_t bit = 0; bit < 8u * C; bit++) {
+        it->flags[bit / 8u] ^= (uint8_t)(1u << (bit % 8u));
+        assert_false(tl_integrate_verify(it));
+        it->flags[bit / 8u] ^= (uint8_t)(1u << (bit % 8u));
+        flips++;
+    }
+    for (uint32_t bit = 0; bit < 32u * 4u; bit++) {
+        it->sat_channels[bit / 32u] ^= 1u << (bit % 32u);
+        assert_false(tl_integrate_verify(it));
+        it->sat_channels[bit / 32u] ^= 1u << (bit % 32u);
+        flips++;
+    }
+    for (uint32_t bit = 0; bit < 64u; bit++) {
+        it->check ^= UINT64_C(1) << bit;
+        assert_false(tl_integrate_verify(it));
+        it->check ^= UINT64_C(1) << bit;
+        flips++;
+    }
+    assert_true(tl_integrate_verify(it));
+    /* past the channels in use: not covered, not output */
+    it->auto_sum[0][C] ^= 1u;
+    assert_true(tl_integrate_verify(it));
+    it->auto_sum[0][C] ^= 1u;
+    printf("    check: %u single-bit flips, every one found\n", flips);
+    tl_integrate_reset(it, C);
+    assert_true(tl_integrate_verify(it));
+    assert_true(it->check == 0u);
+    free(it);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -376,6 +454,7 @@ int main(void)
         cmocka_unit_test(cross_saturates_both_ends),
         cmocka_unit_test(many_channels_counted),
         cmocka_unit_test(split_integration_adds_up),
+        cmocka_unit_test(check_finds_every_flip),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -540,27 +540,36 @@ void tl_detect_power_avx2(const int32_t *X, uint32_t channels, unsigned shift, u
 }
 
 /* ---- integration ---------------------------------------------------------- */
-/* Flag and count channel k as tl_integrate.c mark does. Reached only when
- * a sum saturates. */
-static void mark_one(uint32_t k, uint8_t *flags, uint8_t bit, uint32_t *count)
+/* Flag and count channel k as tl_integrate.c mark does (check grows by
+ * bit + 1). Reached only when a sum saturates. */
+static void mark_one(uint32_t k, uint8_t *flags, uint8_t bit, uint32_t *count, uint64_t *check)
 {
     if ((flags[k] & bit) == 0u) {
         flags[k] = (uint8_t)(flags[k] | bit);
         (*count)++;
+        *check += (uint64_t)bit + 1u;
     }
 }
 
-static void mark_lanes(unsigned mask, uint32_t k, uint8_t *flags, uint8_t bit, uint32_t *count)
+static void mark_lanes(unsigned mask, uint32_t k, uint8_t *flags, uint8_t bit, uint32_t *count, uint64_t *check)
 {
     for (unsigned l = 0; l < 4u; l++)
         if ((mask >> l) & 1u)
-            mark_one(k + l, flags, bit, count);
+            mark_one(k + l, flags, bit, count, check);
+}
+
+static inline TL_AVX2 uint64_t sum_u64_lanes(__m256i v)
+{
+    uint64_t q[4];
+    _mm256_storeu_si256((__m256i *)(void *)q, v);
+    return q[0] + q[1] + q[2] + q[3];
 }
 
 /* Unsigned r = a + p wrapped iff r < p, tested as signed after flipping
  * the sign bits (AVX2 has only the signed 64-bit compare); a wrapped lane
  * is set to all ones, UINT64_MAX. Eight channels per step; the lanes are
- * looked at one by one only when one of them saturated. */
+ * looked at one by one only when one of them saturated. The change of
+ * each word (new minus old, mod 2^64) is summed per lane for the check. */
 static inline TL_AVX2 __m256i sat_add_u64(__m256i a, __m256i p, __m256i sign, __m256i *wrap)
 {
     const __m256i r = _mm256_add_epi64(a, p);
@@ -569,36 +578,43 @@ static inline TL_AVX2 __m256i sat_add_u64(__m256i a, __m256i p, __m256i sign, __
 }
 
 static TL_AVX2 void power_sum_body(uint64_t *acc, const uint64_t *P, uint32_t n, uint8_t *flags, uint8_t bit,
-                                   uint32_t *count)
+                                   uint32_t *count, uint64_t *check)
 {
     const __m256i sign = _mm256_set1_epi64x(INT64_MIN);
+    __m256i grew = _mm256_setzero_si256();
     size_t k = 0;
     for (; k + 8u <= n; k += 8u) {
         __m256i w0, w1;
-        const __m256i r0 = sat_add_u64(_mm256_loadu_si256((const __m256i *)(const void *)&acc[k]),
-                                       _mm256_loadu_si256((const __m256i *)(const void *)&P[k]), sign, &w0);
-        const __m256i r1 = sat_add_u64(_mm256_loadu_si256((const __m256i *)(const void *)&acc[k + 4u]),
-                                       _mm256_loadu_si256((const __m256i *)(const void *)&P[k + 4u]), sign, &w1);
+        const __m256i a0 = _mm256_loadu_si256((const __m256i *)(const void *)&acc[k]);
+        const __m256i a1 = _mm256_loadu_si256((const __m256i *)(const void *)&acc[k + 4u]);
+        const __m256i r0 = sat_add_u64(a0, _mm256_loadu_si256((const __m256i *)(const void *)&P[k]), sign, &w0);
+        const __m256i r1 = sat_add_u64(a1, _mm256_loadu_si256((const __m256i *)(const void *)&P[k + 4u]), sign, &w1);
         _mm256_storeu_si256((__m256i *)(void *)&acc[k], r0);
         _mm256_storeu_si256((__m256i *)(void *)&acc[k + 4u], r1);
+        grew = _mm256_add_epi64(grew, _mm256_add_epi64(_mm256_sub_epi64(r0, a0), _mm256_sub_epi64(r1, a1)));
         if (!_mm256_testz_si256(_mm256_or_si256(w0, w1), _mm256_or_si256(w0, w1))) {
-            mark_lanes((unsigned)_mm256_movemask_pd(_mm256_castsi256_pd(w0)), (uint32_t)k, flags, bit, count);
-            mark_lanes((unsigned)_mm256_movemask_pd(_mm256_castsi256_pd(w1)), (uint32_t)k + 4u, flags, bit, count);
+            mark_lanes((unsigned)_mm256_movemask_pd(_mm256_castsi256_pd(w0)), (uint32_t)k, flags, bit, count, check);
+            mark_lanes((unsigned)_mm256_movemask_pd(_mm256_castsi256_pd(w1)), (uint32_t)k + 4u, flags, bit, count,
+                       check);
         }
     }
+    uint64_t g = sum_u64_lanes(grew);
     for (; k < n; k++) {
         uint32_t sat = 0;
-        acc[k] = tl_sat_add_u64(acc[k], P[k], &sat);
+        const uint64_t old = acc[k];
+        acc[k] = tl_sat_add_u64(old, P[k], &sat);
+        g += acc[k] - old;
         if (sat != 0u)
-            mark_one((uint32_t)k, flags, bit, count);
+            mark_one((uint32_t)k, flags, bit, count, check);
     }
+    *check += g;
 }
 
 void tl_integrate_power_avx2(uint64_t *acc, const uint64_t *P, uint32_t n, uint8_t *flags, uint8_t bit,
-                             uint32_t *count)
+                             uint32_t *count, uint64_t *check)
 {
     count_call();
-    power_sum_body(acc, P, n, flags, bit, count);
+    power_sum_body(acc, P, n, flags, bit, count, check);
 }
 
 /* Signed r = a + b overflows iff a and b share a sign that r lacks:
@@ -614,38 +630,47 @@ static inline TL_AVX2 __m256i sat_add_s64(__m256i a, __m256i b, __m256i *ovm)
 }
 
 static TL_AVX2 void cross_sum_body(int64_t *acc_re, int64_t *acc_im, const int64_t *re, const int64_t *im,
-                                   uint32_t n, uint8_t *flags, uint8_t bit_re, uint8_t bit_im, uint32_t count[2])
+                                   uint32_t n, uint8_t *flags, uint8_t bit_re, uint8_t bit_im, uint32_t count[2],
+                                   uint64_t *check)
 {
+    __m256i grew = _mm256_setzero_si256();
     size_t k = 0;
     for (; k + 4u <= n; k += 4u) {
         __m256i mr, mi;
-        const __m256i r = sat_add_s64(_mm256_loadu_si256((const __m256i *)(const void *)&acc_re[k]),
-                                      _mm256_loadu_si256((const __m256i *)(const void *)&re[k]), &mr);
-        const __m256i i = sat_add_s64(_mm256_loadu_si256((const __m256i *)(const void *)&acc_im[k]),
-                                      _mm256_loadu_si256((const __m256i *)(const void *)&im[k]), &mi);
+        const __m256i ar = _mm256_loadu_si256((const __m256i *)(const void *)&acc_re[k]);
+        const __m256i ai = _mm256_loadu_si256((const __m256i *)(const void *)&acc_im[k]);
+        const __m256i r = sat_add_s64(ar, _mm256_loadu_si256((const __m256i *)(const void *)&re[k]), &mr);
+        const __m256i i = sat_add_s64(ai, _mm256_loadu_si256((const __m256i *)(const void *)&im[k]), &mi);
         _mm256_storeu_si256((__m256i *)(void *)&acc_re[k], r);
         _mm256_storeu_si256((__m256i *)(void *)&acc_im[k], i);
+        grew = _mm256_add_epi64(grew, _mm256_add_epi64(_mm256_sub_epi64(r, ar), _mm256_sub_epi64(i, ai)));
         if (!_mm256_testz_si256(_mm256_or_si256(mr, mi), _mm256_or_si256(mr, mi))) {
-            mark_lanes((unsigned)_mm256_movemask_pd(_mm256_castsi256_pd(mr)), (uint32_t)k, flags, bit_re, &count[0]);
-            mark_lanes((unsigned)_mm256_movemask_pd(_mm256_castsi256_pd(mi)), (uint32_t)k, flags, bit_im, &count[1]);
+            mark_lanes((unsigned)_mm256_movemask_pd(_mm256_castsi256_pd(mr)), (uint32_t)k, flags, bit_re, &count[0],
+                       check);
+            mark_lanes((unsigned)_mm256_movemask_pd(_mm256_castsi256_pd(mi)), (uint32_t)k, flags, bit_im, &count[1],
+                       check);
         }
     }
+    uint64_t g = sum_u64_lanes(grew);
     for (; k < n; k++) {
         uint32_t sr = 0, si = 0;
+        const uint64_t old = (uint64_t)acc_re[k] + (uint64_t)acc_im[k];
         acc_re[k] = tl_sat_add_s64(acc_re[k], re[k], &sr);
         acc_im[k] = tl_sat_add_s64(acc_im[k], im[k], &si);
+        g += (uint64_t)acc_re[k] + (uint64_t)acc_im[k] - old;
         if (sr != 0u)
-            mark_one((uint32_t)k, flags, bit_re, &count[0]);
+            mark_one((uint32_t)k, flags, bit_re, &count[0], check);
         if (si != 0u)
-            mark_one((uint32_t)k, flags, bit_im, &count[1]);
+            mark_one((uint32_t)k, flags, bit_im, &count[1], check);
     }
+    *check += g;
 }
 
 void tl_integrate_cross_avx2(int64_t *acc_re, int64_t *acc_im, const int64_t *re, const int64_t *im, uint32_t n,
-                             uint8_t *flags, uint8_t bit_re, uint8_t bit_im, uint32_t count[2])
+                             uint8_t *flags, uint8_t bit_re, uint8_t bit_im, uint32_t count[2], uint64_t *check)
 {
     count_call();
-    cross_sum_body(acc_re, acc_im, re, im, n, flags, bit_re, bit_im, count);
+    cross_sum_body(acc_re, acc_im, re, im, n, flags, bit_re, bit_im, count, check);
 }
 
 /* ---- ADC statistics and copy (tl_chain.c copy_in) --------------------- */

@@ -80,14 +80,15 @@ void tl_detect_power_avx2(const int32_t *X, uint32_t channels, unsigned shift, u
 
 /* Integration: acc[k] = acc[k] + P[k] saturated at UINT64_MAX
  * (tl_sat_add_u64), k < n; a channel that saturates gets `bit` in
- * flags[k] and, the first time, *count += 1 (tl_integrate.c mark). */
+ * flags[k] and, the first time, *count += 1 (tl_integrate.c mark);
+ * *check grows by every change (new minus old words, bit + 1 per mark). */
 void tl_integrate_power_avx2(uint64_t *acc, const uint64_t *P, uint32_t n, uint8_t *flags, uint8_t bit,
-                                 uint32_t *count);
+                             uint32_t *count, uint64_t *check);
 
 /* The same for the cross-power sums (tl_sat_add_s64 on re and im, flag
  * bits bit_re and bit_im, counts count[0] and count[1]). */
 void tl_integrate_cross_avx2(int64_t *acc_re, int64_t *acc_im, const int64_t *re, const int64_t *im, uint32_t n,
-                             uint8_t *flags, uint8_t bit_re, uint8_t bit_im, uint32_t count[2]);
+                             uint8_t *flags, uint8_t bit_re, uint8_t bit_im, uint32_t count[2], uint64_t *check);
 
 /* tl_crc32c_update (the register value, no inversion) with the SSE4.2
  * crc32 instruction. Not counted by tl_simd_x86_calls. */
