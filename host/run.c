@@ -267,18 +267,22 @@ tl_status tl_run_scenario(const tl_scenario *s, tl_run_result *r, void (*progres
     return st;
 }
 
+/* Free what a kurtosis report holds and clear it. */
+static void sk_release(tl_sk_report *sk)
+{
+    free(sk->blocks);
+    for (uint32_t i = 0; i < TL_MAX_INPUTS; i++)
+        free(sk->flag_count[i]);
+    memset(sk, 0, sizeof *sk);
+}
+
 void tl_run_release(tl_run_result *r)
 {
     if (r == NULL)
         return;
-    free(r->sk.blocks);
-    r->sk.blocks = NULL;
+    sk_release(&r->sk);
     free(r->experienced);
     r->experienced = NULL;
-    for (uint32_t i = 0; i < TL_MAX_INPUTS; i++) {
-        free(r->sk.flag_count[i]);
-        r->sk.flag_count[i] = NULL;
-    }
 }
 
 tl_status tl_run_kurtosis(const tl_scenario *s, tl_product *p, tl_sk_report *sk)
@@ -292,20 +296,12 @@ tl_status tl_run_kurtosis(const tl_scenario *s, tl_product *p, tl_sk_report *sk)
     for (uint32_t i = 0; i < s->cfg.inputs; i++)
         sk->flag_count[i] = calloc(s->cfg.points / 2u, sizeof *sk->flag_count[i]);
     if (sk->blocks == NULL || sk->flag_count[0] == NULL || (s->cfg.inputs == 2u && sk->flag_count[1] == NULL)) {
-        tl_run_result tmp;
-        tmp.experienced = NULL;
-        tmp.sk = *sk;
-        tl_run_release(&tmp);
-        memset(sk, 0, sizeof *sk);
+        sk_release(sk); /* (a tl_run_result here would put megabytes on the stack) */
         return TL_E_NULL;
     }
     const tl_status st = run_chain(s, p, sk->blocks, max_blocks, &sk->nblocks);
     if (st != TL_OK) {
-        tl_run_result tmp;
-        tmp.experienced = NULL;
-        tmp.sk = *sk;
-        tl_run_release(&tmp);
-        memset(sk, 0, sizeof *sk);
+        sk_release(sk);
         return st;
     }
     sk->m = m;
@@ -315,11 +311,7 @@ tl_status tl_run_kurtosis(const tl_scenario *s, tl_product *p, tl_sk_report *sk)
     sk->dropped = p->sk_dropped;
     sk->n = nacc;
     if (tl_sk_thresholds(m, nacc, s->sk_false_alarm, &sk->lo, &sk->hi) != 0) {
-        tl_run_result tmp;
-        tmp.experienced = NULL;
-        tmp.sk = *sk;
-        tl_run_release(&tmp);
-        memset(sk, 0, sizeof *sk);
+        sk_release(sk);
         return TL_E_SK;
     }
     sk->mask_blocks = tl_sk_mask_blocks(sk->nblocks, s->sk_false_alarm);
