@@ -46,17 +46,15 @@ int tl_integrate_verify(const tl_integrator *it)
     return s == it->check;
 }
 
-/* The saturating end of tl_integrate_power's add, out of the loop:
- * acc[k] + p wrapped, so the sum stops at UINT64_MAX. The loop has counted
- * p into its growth; the word grew by UINT64_MAX - old: returns the
- * difference. */
-static TL_NOINLINE uint64_t power_saturated(tl_integrator *it, uint64_t *acc, uint32_t k, uint64_t p, uint8_t bit,
-                                            uint32_t input)
+/* A sum that saturated (tl_sat_add_u64 or tl_sat_add_s64 stopped it at
+ * its limit), out of the hot loop: flag and count the channel; returns
+ * what the word really changed by (new - old) minus the term the loop
+ * counted. */
+static TL_NOINLINE uint64_t saturated(tl_integrator *it, uint32_t k, uint64_t now, uint64_t old, uint64_t term,
+                                      uint8_t bit, uint32_t which)
 {
-    const uint64_t fix = UINT64_MAX - acc[k] - p;
-    acc[k] = UINT64_MAX;
-    mark(it, k, bit, input);
-    return fix;
+    mark(it, k, bit, which);
+    return now - old - term;
 }
 
 void tl_integrate_power(tl_integrator *it, uint32_t input, const uint64_t *P)
@@ -71,29 +69,14 @@ void tl_integrate_power(tl_integrator *it, uint32_t input, const uint64_t *P)
 #endif
     uint64_t grew = 0; /* what the sums grew by, mod 2^64 */
     for (uint32_t k = 0; k < it->channels; k++) {
-        const uint64_t p = P[k];
-        const uint64_t r = acc[k] + p; /* tl_sat_add_u64: unsigned wrap is defined, and wrapped iff r < p */
+        uint32_t sat = 0;
+        const uint64_t old = acc[k], p = P[k];
+        acc[k] = tl_sat_add_u64(old, p, &sat);
         grew += p;
-        if (r >= p)
-            acc[k] = r;
-        else
-            grew += power_saturated(it, acc, k, p, bit, input);
+        if (sat != 0u)
+            grew += saturated(it, k, acc[k], old, p, bit, input);
     }
     it->check += grew;
-}
-
-/* A cross-power add that saturated, out of the loop: tl_sat_add_s64.
- * Returns what the word really changed by minus b (which the loop
- * counted). */
-static TL_NOINLINE uint64_t cross_saturated(tl_integrator *it, int64_t *acc, uint32_t k, int64_t b, uint8_t bit,
-                                            uint32_t which)
-{
-    uint32_t sat = 0;
-    const int64_t old = acc[k];
-    acc[k] = tl_sat_add_s64(old, b, &sat);
-    if (sat != 0u)
-        mark(it, k, bit, which);
-    return (uint64_t)acc[k] - (uint64_t)old - (uint64_t)b;
 }
 
 /* One part (re or im) of the cross-power sums; returns what its words grew
@@ -103,13 +86,12 @@ static uint64_t cross_part(tl_integrator *it, int64_t *acc, const int64_t *b, ui
 {
     uint64_t grew = 0;
     for (uint32_t k = 0; k < it->channels; k++) {
-        const uint64_t ua = (uint64_t)acc[k], ub = (uint64_t)b[k], ur = ua + ub;
-        grew += ub;
-        /* tl_sat_add_s64's test: overflow iff a and b share a sign that the sum lacks */
-        if ((((~(ua ^ ub)) & (ua ^ ur)) >> 63) == 0u)
-            acc[k] += b[k]; /* in range: no overflow */
-        else
-            grew += cross_saturated(it, acc, k, b[k], bit, which);
+        uint32_t sat = 0;
+        const int64_t old = acc[k], v = b[k];
+        acc[k] = tl_sat_add_s64(old, v, &sat);
+        grew += (uint64_t)v;
+        if (sat != 0u)
+            grew += saturated(it, k, (uint64_t)acc[k], (uint64_t)old, (uint64_t)v, bit, which);
     }
     return grew;
 }

@@ -300,7 +300,7 @@ void tl_scenario_nominal(tl_scenario *s)
     s->proc_ips[0] = 131.763;
     s->proc_ips[1] = 522.925;
     s->proc_ips[2] = 68.014;
-    s->proc_ips[3] = 36.017;
+    s->proc_ips[3] = 33.016;
     s->proc_ips[4] = 0.332;
     s->proc_ips[5] = 1.846;
     /* PROC_IPS_END */
