@@ -52,7 +52,7 @@ void tl_integrate_cross(tl_integrator *it, const int64_t *re, const int64_t *im)
 
 /* 1 if `check` equals the sum of the words it covers (channels clamped to
  * TL_MAX_CHANNELS), 0 if a bit of them or of `check` has flipped. Costs
- * 5 channels' words of additions per channel, once per integration. */
+ * five 64-bit additions per channel, once per integration. */
 int tl_integrate_verify(const tl_integrator *it);
 
 #endif
