@@ -251,6 +251,23 @@ static void axis_values(const tl_sweep_plan *p, uint32_t index, uint32_t *vi)
     }
 }
 
+/* Start a SHA-256 with `head` and then the base scenario's text: the point
+ * seeds and the job digest both open this way. */
+static int digest_start(tl_sha256 *h, const tl_sweep_plan *p, const char *head, size_t n, char *err, size_t cap)
+{
+    size_t len = 0;
+    char *text = scenario_text(&p->base, &len);
+    if (text == NULL) {
+        snprintf(err, cap, "out of memory");
+        return -1;
+    }
+    tl_sha256_init(h);
+    tl_sha256_update(h, head, n);
+    tl_sha256_update(h, text, len);
+    free(text);
+    return 0;
+}
+
 int tl_sweep_point(const tl_sweep_plan *p, uint32_t index, tl_scenario *s, char *err, size_t cap)
 {
     uint32_t vi[TL_SWEEP_MAX_AXES] = { 0 };
@@ -272,18 +289,10 @@ int tl_sweep_point(const tl_sweep_plan *p, uint32_t index, tl_scenario *s, char 
             snprintf(err + used, cap - used, ")");
         return -1;
     }
-    size_t len = 0;
-    char *text = scenario_text(&p->base, &len);
-    if (text == NULL) {
-        snprintf(err, cap, "out of memory");
-        return -1;
-    }
     tl_sha256 h;
-    tl_sha256_init(&h);
     static const char tag[] = "tidelock sweep seed 1\n";
-    tl_sha256_update(&h, tag, sizeof tag - 1u);
-    tl_sha256_update(&h, text, len);
-    free(text);
+    if (digest_start(&h, p, tag, sizeof tag - 1u, err, cap) != 0)
+        return -1;
     for (uint32_t a = 0; a < p->naxes; a++) {
         if (p->common_noise && (strcmp(p->axis[a].section, "sky") != 0 || strcmp(p->axis[a].key, "seed") != 0))
             continue;
@@ -314,20 +323,12 @@ int tl_sweep_plan_check(tl_sweep_plan *p, char *err, size_t cap)
     for (uint32_t i = 0; i < p->points; i++)
         if (tl_sweep_point(p, i, &s, err, cap) != 0)
             return -1;
-    size_t len = 0;
-    char *text = scenario_text(&p->base, &len);
-    if (text == NULL) {
-        snprintf(err, cap, "out of memory");
-        return -1;
-    }
     tl_sha256 h;
-    tl_sha256_init(&h);
     char line[512];
     int n = snprintf(line, sizeof line, "tidelock sweep job 1\ntool %s\narith %u\nnoise %s\n", TL_TOOL_VERSION,
                      (unsigned)TL_ARITH_VERSION, p->common_noise ? "common" : "per point");
-    tl_sha256_update(&h, line, (size_t)n);
-    tl_sha256_update(&h, text, len);
-    free(text);
+    if (digest_start(&h, p, line, (size_t)n, err, cap) != 0)
+        return -1;
     for (uint32_t a = 0; a < p->naxes; a++) {
         n = snprintf(line, sizeof line, "axis %s.%s %u\n", p->axis[a].section, p->axis[a].key, p->axis[a].n);
         tl_sha256_update(&h, line, (size_t)n);

@@ -1,6 +1,7 @@
 /* spec_arith.c - the plain statement of the arithmetic spec (see spec_arith.h). */
 #include "spec_arith.h"
 
+#include <math.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -140,4 +141,30 @@ uint32_t spec_pfb_output(const tl_taps *t, const int16_t *const *frames, tl_roun
         y[n] = tl_sat_s32(tl_round_shr_s64(acc, shift, mode), &ovf);
     }
     return ovf;
+}
+
+void spec_fft_masks(uint32_t points, tl_rng *rng, uint32_t masks[5])
+{
+    uint32_t m = 0; /* log2(points / 2) */
+    while ((2u << m) < points)
+        m++;
+    masks[0] = TL_FFT_SCALE_AUTO;
+    masks[1] = 0u;
+    masks[2] = (2u << m) - 1u;
+    masks[3] = (uint32_t)(tl_rng_u64(rng) & ((2u << m) - 1u));
+    masks[4] = (uint32_t)(tl_rng_u64(rng) & ((2u << m) - 1u));
+}
+
+void spec_fft_input(int32_t *y, uint32_t points, unsigned kind, tl_rng *rng)
+{
+    for (uint32_t n = 0; n < points; n++) {
+        if (kind == 0u)
+            y[n] = (int32_t)lround(ldexp(1.0, 28) * tl_rng_normal(rng));
+        else if (kind == 1u)
+            y[n] = (int32_t)(uint32_t)tl_rng_u64(rng);
+        else
+            y[n] = (n & 1u) ? INT32_MIN : INT32_MAX;
+    }
+    if (kind == 1u)
+        y[points / 3u] = INT32_MIN;
 }

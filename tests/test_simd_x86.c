@@ -85,26 +85,13 @@ static void test_fft_both_paths(void **state)
     unsigned compared = 0, saturating = 0;
     const uint64_t calls0 = tl_simd_x86_calls();
     for (uint32_t points = TL_MIN_POINTS; points <= TL_MAX_POINTS; points *= 2u) {
-        uint32_t m = 0;
-        while ((2u << m) < points)
-            m++;
-        const uint32_t masks[5] = { TL_FFT_SCALE_AUTO, 0u, (2u << m) - 1u,
-                                    (uint32_t)(tl_rng_u64(&rng) & ((2u << m) - 1u)),
-                                    (uint32_t)(tl_rng_u64(&rng) & ((2u << m) - 1u)) };
+        uint32_t masks[5];
+        spec_fft_masks(points, &rng, masks);
         for (int mode = TL_ROUND_TRUNCATE; mode <= TL_ROUND_HALF_EVEN; mode++) {
             for (unsigned mi = 0; mi < 5u; mi++) {
                 assert_int_equal(tl_fft_init(f, points, masks[mi], (tl_rounding)mode), TL_OK);
                 for (unsigned kind = 0; kind < 3u; kind++) {
-                    for (uint32_t n = 0; n < points; n++) {
-                        if (kind == 0u)
-                            y[n] = (int32_t)lround(ldexp(1.0, 28) * tl_rng_normal(&rng));
-                        else if (kind == 1u)
-                            y[n] = (int32_t)(uint32_t)tl_rng_u64(&rng);
-                        else
-                            y[n] = (n & 1u) ? INT32_MIN : INT32_MAX;
-                    }
-                    if (kind == 1u)
-                        y[points / 3u] = INT32_MIN;
+                    spec_fft_input(y, points, kind, &rng);
                     uint32_t sv[TL_MAX_FFT_STAGES + 1u] = { 0 }, sp[TL_MAX_FFT_STAGES + 1u] = { 0 },
                              ss[TL_MAX_FFT_STAGES + 1u] = { 0 };
                     tl_simd_x86_enable(1);
